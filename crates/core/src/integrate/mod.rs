@@ -1,0 +1,1 @@
+//! Adaptive explicit Runge–Kutta integration with dense output and events.
