@@ -11,13 +11,21 @@ pub type Slot = u32;
 /// A one-argument elementary function.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 pub enum Func {
+    /// `exp(x)`.
     Exp,
+    /// Natural logarithm, `ln(x)`.
     Ln,
+    /// Base-10 logarithm, `log10(x)`.
     Log10,
+    /// `sqrt(x)`.
     Sqrt,
+    /// `abs(x)`.
     Abs,
+    /// `sin(x)`, radians.
     Sin,
+    /// `cos(x)`, radians.
     Cos,
+    /// `tan(x)`, radians.
     Tan,
     /// −1, 0 or 1 (0 for ±0 and NaN gives NaN). Internal: appears in derivatives of `abs`, `min`, `max`.
     Sign,
@@ -27,20 +35,29 @@ pub enum Func {
 /// is NaN, division by zero is ±inf), so evaluation never panics.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub enum Op {
+    /// A constant.
     Const(f64),
     /// The `i`-th input: state variables `0..n_state` come first, then parameters.
     Input(u32),
+    /// `a + b`.
     Add(Slot, Slot),
+    /// `a - b`.
     Sub(Slot, Slot),
+    /// `a * b`.
     Mul(Slot, Slot),
+    /// `a / b`.
     Div(Slot, Slot),
+    /// `-a`.
     Neg(Slot),
     /// `a.powf(b)`.
     Pow(Slot, Slot),
     /// `a.powi(n)` for an integer exponent known at compile time.
     Powi(Slot, i32),
+    /// `f(a)`.
     Call(Func, Slot),
+    /// `a.min(b)`.
     Min(Slot, Slot),
+    /// `a.max(b)`.
     Max(Slot, Slot),
 }
 
@@ -56,4 +73,21 @@ pub struct Tape {
     pub n_state: u32,
     /// Number of parameter inputs.
     pub n_params: u32,
+}
+
+impl Op {
+    /// The slots this operation reads (none, one or two).
+    pub fn operands(&self) -> [Option<Slot>; 2] {
+        match *self {
+            Op::Const(_) | Op::Input(_) => [None, None],
+            Op::Neg(a) | Op::Powi(a, _) | Op::Call(_, a) => [Some(a), None],
+            Op::Add(a, b)
+            | Op::Sub(a, b)
+            | Op::Mul(a, b)
+            | Op::Div(a, b)
+            | Op::Pow(a, b)
+            | Op::Min(a, b)
+            | Op::Max(a, b) => [Some(a), Some(b)],
+        }
+    }
 }
