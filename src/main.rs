@@ -1,3 +1,93 @@
-fn main() {
-    println!("quarry");
+//! `quarry`: the phase-plane workbench's command line.
+//!
+//! With no arguments it will open the desktop app; the subcommands answer headless, as a
+//! readable table or as JSON for scripts. Bad input of any kind prints a message naming what
+//! and where to stderr and exits with status 2, writing nothing else.
+
+mod analyze_cmd;
+mod model_args;
+mod orbit_cmd;
+mod output;
+
+use std::process::ExitCode;
+
+use clap::{CommandFactory, Parser, Subcommand};
+
+/// Phase-plane workbench for two-species population models.
+///
+/// Simplified models for exploration and teaching: their outputs are not a stock assessment,
+/// and management decisions rest on assessed data, local regulations and qualified scientific
+/// advice.
+#[derive(Parser, Debug)]
+#[command(name = "quarry", version, about, long_about = None)]
+struct Cli {
+    #[command(subcommand)]
+    command: Option<Command>,
+}
+
+#[derive(Subcommand, Debug)]
+enum Command {
+    /// Find, linearise and classify every equilibrium in the window.
+    Analyze(analyze_cmd::AnalyzeArgs),
+    /// Integrate one orbit and measure it (period, extremes, means, lag).
+    Orbit(orbit_cmd::OrbitArgs),
+    /// List the built-in models.
+    Models,
+}
+
+/// A failure with the exit status it maps to.
+#[derive(Debug)]
+pub enum Failure {
+    /// Bad input: exit status 2.
+    Usage(String),
+    /// Could not write output: exit status 1.
+    Io(String),
+}
+
+impl From<std::io::Error> for Failure {
+    fn from(e: std::io::Error) -> Self {
+        Failure::Io(e.to_string())
+    }
+}
+
+fn main() -> ExitCode {
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        Err(e) => {
+            // clap prints help and version to stdout with status 0, errors to stderr with 2.
+            let _ = e.print();
+            return ExitCode::from(e.exit_code().clamp(0, 255) as u8);
+        }
+    };
+    match run(cli) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(Failure::Usage(msg)) => {
+            eprintln!("quarry: {msg}");
+            ExitCode::from(2)
+        }
+        Err(Failure::Io(msg)) => {
+            eprintln!("quarry: {msg}");
+            ExitCode::from(1)
+        }
+    }
+}
+
+fn run(cli: Cli) -> Result<(), Failure> {
+    match cli.command {
+        None => {
+            // The desktop app arrives in its own crate; until then show what is here.
+            Cli::command().print_help()?;
+            println!();
+            Ok(())
+        }
+        Some(Command::Analyze(args)) => analyze_cmd::run(&args),
+        Some(Command::Orbit(args)) => orbit_cmd::run(&args),
+        Some(Command::Models) => {
+            let mut out = String::new();
+            for b in quarry_core::library::BUILTINS {
+                out.push_str(&format!("{:<22} {}\n", b.key, b.summary));
+            }
+            output::write_stdout(&out)
+        }
+    }
 }

@@ -3,5 +3,13 @@
 //! Nothing here knows about windows or argument parsing; the desktop app and the `quarry`
 //! command line are thin fronts over this crate.
 
+pub mod analysis;
+pub mod compiled;
+pub mod equilibria;
 pub mod expr;
 pub mod integrate;
+pub mod library;
+pub mod linear;
+pub mod model;
+pub mod orbit;
+pub mod verdict;

@@ -1,0 +1,172 @@
+//! Choosing a model on the command line: a built-in (or, later, a scenario file) as the first
+//! argument, or `--var`, `--param` and `--window`; `--set` overrides a parameter.
+
+use clap::Args;
+use quarry_core::library;
+use quarry_core::model::{Model, ModelSpec, Parameter, Window};
+
+use crate::Failure;
+
+/// Model selection, shared by every subcommand.
+#[derive(Args, Debug, Clone)]
+pub struct ModelArgs {
+    /// A built-in model (see `quarry models`). Omit it to give the model with --var.
+    #[arg(value_name = "MODEL")]
+    pub model: Option<String>,
+
+    /// A state variable and its rate, `NAME=EXPR`; exactly two, the first on the horizontal
+    /// axis.
+    #[arg(long = "var", value_name = "NAME=EXPR", allow_hyphen_values = true)]
+    pub vars: Vec<String>,
+
+    /// A parameter and its value, `NAME=VALUE` (repeatable).
+    #[arg(long = "param", value_name = "NAME=VALUE", allow_hyphen_values = true)]
+    pub params: Vec<String>,
+
+    /// Override a parameter of the chosen model, `NAME=VALUE` (repeatable).
+    #[arg(long = "set", value_name = "NAME=VALUE", allow_hyphen_values = true)]
+    pub sets: Vec<String>,
+
+    /// The window `XMIN,XMAX,YMIN,YMAX` (default 0,10,0,10, or the built-in model's own).
+    #[arg(long, value_name = "XMIN,XMAX,YMIN,YMAX", allow_hyphen_values = true)]
+    pub window: Option<String>,
+
+    /// A first integral H(x, y) to use (verified before it is trusted).
+    #[arg(long, value_name = "EXPR", allow_hyphen_values = true)]
+    pub invariant: Option<String>,
+}
+
+/// Splits `NAME=VALUE` at the first '='.
+fn split_assignment<'a>(arg: &'a str, option: &str) -> Result<(&'a str, &'a str), Failure> {
+    match arg.split_once('=') {
+        Some((name, value)) if !name.trim().is_empty() => Ok((name.trim(), value)),
+        _ => Err(Failure::Usage(format!(
+            "{option} '{arg}': expected NAME=VALUE"
+        ))),
+    }
+}
+
+/// Parses a finite number, naming the option on failure.
+pub fn parse_number(text: &str, what: &str) -> Result<f64, Failure> {
+    match text.trim().parse::<f64>() {
+        Ok(v) if v.is_finite() => Ok(v),
+        Ok(_) => Err(Failure::Usage(format!(
+            "{what}: '{text}' is not a finite number"
+        ))),
+        Err(_) => Err(Failure::Usage(format!("{what}: '{text}' is not a number"))),
+    }
+}
+
+/// Parses `N` comma-separated finite numbers.
+pub fn parse_list<const N: usize>(text: &str, what: &str) -> Result<[f64; N], Failure> {
+    let parts: Vec<&str> = text.split(',').collect();
+    if parts.len() != N {
+        return Err(Failure::Usage(format!(
+            "{what} '{text}': expected {N} comma-separated numbers, got {}",
+            parts.len()
+        )));
+    }
+    let mut out = [0.0; N];
+    for (o, p) in out.iter_mut().zip(parts) {
+        *o = parse_number(p, what)?;
+    }
+    Ok(out)
+}
+
+impl ModelArgs {
+    /// Builds the model these arguments describe.
+    pub fn model(&self) -> Result<Model, Failure> {
+        let mut spec = self.spec()?;
+        if let Some(h) = &self.invariant {
+            spec.invariant = Some(h.clone());
+        }
+        Model::new(&spec).map_err(|e| Failure::Usage(e.to_string()))
+    }
+
+    fn spec(&self) -> Result<ModelSpec, Failure> {
+        let mut spec = match (&self.model, self.vars.is_empty()) {
+            (Some(_), false) => {
+                return Err(Failure::Usage(
+                    "give either a MODEL or --var formulas, not both".into(),
+                ));
+            }
+            (Some(name), true) => match library::builtin(name) {
+                Some(b) => b.spec(),
+                None => {
+                    let known: Vec<&str> = library::BUILTINS.iter().map(|b| b.key).collect();
+                    return Err(Failure::Usage(format!(
+                        "unknown model '{name}' (built-in models: {})",
+                        known.join(", ")
+                    )));
+                }
+            },
+            (None, true) => {
+                return Err(Failure::Usage(
+                    "no model: name a built-in model (see `quarry models`) or give two --var NAME=EXPR"
+                        .into(),
+                ));
+            }
+            (None, false) => self.spec_from_vars()?,
+        };
+        // On a built-in, --param acts like --set.
+        let overrides = if self.model.is_some() {
+            self.params.iter().chain(&self.sets).collect::<Vec<_>>()
+        } else {
+            self.sets.iter().collect()
+        };
+        for arg in overrides {
+            let (name, value) = split_assignment(arg, "--set")?;
+            let value = parse_number(value, &format!("--set {name}"))?;
+            match spec.parameters.iter_mut().find(|p| p.name == name) {
+                Some(p) => p.value = value,
+                None => {
+                    let known: Vec<&str> =
+                        spec.parameters.iter().map(|p| p.name.as_str()).collect();
+                    return Err(Failure::Usage(format!(
+                        "--set {name}: the model has no parameter '{name}' (it has: {})",
+                        known.join(", ")
+                    )));
+                }
+            }
+        }
+        if let Some(w) = &self.window {
+            let [a, b, c, d] = parse_list::<4>(w, "--window")?;
+            spec.window =
+                Window::new(a, b, c, d).map_err(|e| Failure::Usage(format!("--window: {e}")))?;
+        }
+        Ok(spec)
+    }
+
+    fn spec_from_vars(&self) -> Result<ModelSpec, Failure> {
+        if self.vars.len() != 2 {
+            return Err(Failure::Usage(format!(
+                "--var: expected exactly two (one per state variable), got {}",
+                self.vars.len()
+            )));
+        }
+        let mut names = Vec::new();
+        let mut rates = Vec::new();
+        for v in &self.vars {
+            let (name, rate) = split_assignment(v, "--var")?;
+            names.push(name.to_owned());
+            rates.push(rate.to_owned());
+        }
+        let mut parameters: Vec<Parameter> = Vec::new();
+        for p in &self.params {
+            let (name, value) = split_assignment(p, "--param")?;
+            let value = parse_number(value, &format!("--param {name}"))?;
+            if parameters.iter().any(|q| q.name == name) {
+                return Err(Failure::Usage(format!("--param {name}: given twice")));
+            }
+            parameters.push(Parameter::new(name, value));
+        }
+        Ok(ModelSpec {
+            name: "command line".into(),
+            variables: [names[0].clone(), names[1].clone()],
+            rates: [rates[0].clone(), rates[1].clone()],
+            parameters,
+            invariant: None,
+            window: Window::default(),
+        })
+    }
+}
