@@ -12,4 +12,5 @@ pub mod library;
 pub mod linear;
 pub mod model;
 pub mod orbit;
+pub mod scene;
 pub mod verdict;
