@@ -512,6 +512,11 @@ impl Model {
         self.rhs.is_native()
     }
 
+    /// The compiled first integral (outputs H, ∂H/∂x, ∂H/∂y), for batch evaluation over grids.
+    pub fn invariant_formulas(&self) -> Option<&Formulas> {
+        self.invariant_code.as_ref()
+    }
+
     /// The compiled rates (outputs f, g), for batch evaluation over grids.
     pub fn rate_formulas(&self) -> &Formulas {
         &self.rhs
