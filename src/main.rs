@@ -8,6 +8,7 @@ mod analyze_cmd;
 mod model_args;
 mod orbit_cmd;
 mod output;
+mod render_cmd;
 
 use std::process::ExitCode;
 
@@ -31,6 +32,8 @@ enum Command {
     Analyze(analyze_cmd::AnalyzeArgs),
     /// Integrate one orbit and measure it (period, extremes, means, lag).
     Orbit(orbit_cmd::OrbitArgs),
+    /// Draw the phase portrait as SVG or PNG.
+    Render(render_cmd::RenderArgs),
     /// List the built-in models.
     Models,
 }
@@ -82,6 +85,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
         }
         Some(Command::Analyze(args)) => analyze_cmd::run(&args),
         Some(Command::Orbit(args)) => orbit_cmd::run(&args),
+        Some(Command::Render(args)) => render_cmd::run(&args),
         Some(Command::Models) => {
             let mut out = String::new();
             for b in quarry_core::library::BUILTINS {

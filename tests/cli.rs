@@ -272,3 +272,71 @@ fn every_subcommand_has_help() {
         assert!(String::from_utf8_lossy(&out.stdout).contains("Usage"));
     }
 }
+
+#[test]
+fn render_writes_an_svg_and_a_png_of_the_asked_size() {
+    let dir = std::env::temp_dir().join(format!("quarry-cli-render-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    let svg = dir.join("lv.svg");
+    let png = dir.join("lv.png");
+    for (path, extra) in [
+        (&svg, vec![]),
+        (&png, vec!["--width", "640", "--height", "480"]),
+    ] {
+        let mut args = vec![
+            "render",
+            "lotka-volterra",
+            "--from",
+            "10,5",
+            "--from",
+            "30,10",
+            "--out",
+        ];
+        let p = path.to_str().expect("utf8 path");
+        args.push(p);
+        args.extend(extra);
+        let out = quarry(&args);
+        assert!(out.status.success(), "{}", stderr(&out));
+    }
+    let text = std::fs::read_to_string(&svg).expect("svg written");
+    roxmltree::Document::parse(&text).expect("the SVG parses");
+    let bytes = std::fs::read(&png).expect("png written");
+    let pixmap = resvg::tiny_skia::Pixmap::decode_png(&bytes).expect("the PNG decodes");
+    assert_eq!((pixmap.width(), pixmap.height()), (640, 480));
+    let non_white = pixmap
+        .pixels()
+        .iter()
+        .filter(|p| p.red() < 240 || p.green() < 240 || p.blue() < 240)
+        .count();
+    assert!(
+        non_white > 640 * 480 / 50,
+        "only {non_white} non-white pixels"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn render_refuses_bad_requests_with_status_2() {
+    for args in [
+        vec!["render", "lotka-volterra", "--out", "/tmp/x.gif"],
+        vec![
+            "render",
+            "lotka-volterra",
+            "--out",
+            "/tmp/x.png",
+            "--width",
+            "0",
+        ],
+        vec![
+            "render",
+            "lotka-volterra",
+            "--out",
+            "/tmp/x.png",
+            "--from",
+            "a,b",
+        ],
+    ] {
+        let out = quarry(&args);
+        assert_eq!(out.status.code(), Some(2), "{args:?}");
+    }
+}

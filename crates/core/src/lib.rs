@@ -5,12 +5,20 @@
 
 pub mod analysis;
 pub mod compiled;
+pub mod contour;
+pub mod cycle;
 pub mod equilibria;
 pub mod expr;
+pub mod field;
 pub mod integrate;
 pub mod library;
 pub mod linear;
+pub mod linearised;
+pub mod marching;
 pub mod model;
+pub mod nullcline;
 pub mod orbit;
 pub mod scene;
+pub mod separatrix;
+pub mod streamlines;
 pub mod verdict;

@@ -180,3 +180,314 @@ pub struct Scene {
     /// Limit cycles found.
     pub limit_cycles: Vec<LimitCycle>,
 }
+
+/// Which way in time an orbit runs from its seed.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub enum TimeDirection {
+    /// Forward from the seed.
+    #[default]
+    Forward,
+    /// Backward from the seed.
+    Backward,
+    /// Both: one orbit backward and one forward, joined at the seed.
+    Both,
+}
+
+/// A starting state for an orbit.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Seed {
+    /// Where it starts.
+    pub at: Point,
+    /// Which way in time.
+    pub direction: TimeDirection,
+}
+
+/// Which first-integral levels to draw.
+#[derive(Clone, Debug, PartialEq)]
+pub enum ContourLevels {
+    /// This many levels chosen to show the closed curves well.
+    Count(usize),
+    /// These levels.
+    Levels(Vec<f64>),
+    /// The levels through these points.
+    Through(Vec<Point>),
+}
+
+/// What to compute for a [`Scene`].
+#[derive(Clone, Debug, PartialEq)]
+pub struct SceneRequest {
+    /// Direction-field grid (samples across, up), or `None` for no field.
+    pub field: Option<(usize, usize)>,
+    /// Evenly spaced streamlines.
+    pub streamlines: bool,
+    /// Nullcline grid per side, or `None` for no nullclines.
+    pub nullcline_grid: Option<usize>,
+    /// First-integral contours (drawn only for models with one), or `None`.
+    pub contours: Option<ContourLevels>,
+    /// Grid per side for the contours.
+    pub contour_grid: usize,
+    /// Separatrices of every saddle.
+    pub separatrices: bool,
+    /// Look for limit cycles near the equilibria.
+    pub limit_cycles: bool,
+    /// Orbit seeds.
+    pub seeds: Vec<Seed>,
+    /// How long each orbit runs (in each direction).
+    pub orbit_time: f64,
+    /// Relative tolerance for orbits.
+    pub orbit_rtol: f64,
+    /// Points drawn per integration step (dense output), at least 1.
+    pub points_per_step: usize,
+}
+
+impl Default for SceneRequest {
+    fn default() -> Self {
+        Self {
+            field: Some((24, 24)),
+            streamlines: false,
+            nullcline_grid: Some(256),
+            contours: Some(ContourLevels::Count(10)),
+            contour_grid: 256,
+            separatrices: true,
+            limit_cycles: true,
+            seeds: Vec::new(),
+            orbit_time: 30.0,
+            orbit_rtol: 1e-9,
+            points_per_step: 8,
+        }
+    }
+}
+
+/// A shared flag that tells a scene computation to give up: a newer request has arrived.
+#[derive(Clone, Debug, Default)]
+pub struct Cancel(std::sync::Arc<std::sync::atomic::AtomicBool>);
+
+impl Cancel {
+    /// A fresh, not-cancelled flag.
+    pub fn new() -> Self {
+        Self::default()
+    }
+
+    /// Asks every computation holding this flag to stop.
+    pub fn cancel(&self) {
+        self.0.store(true, std::sync::atomic::Ordering::Relaxed);
+    }
+
+    /// Whether [`Cancel::cancel`] was called.
+    pub fn is_cancelled(&self) -> bool {
+        self.0.load(std::sync::atomic::Ordering::Relaxed)
+    }
+}
+
+/// The scene computation was cancelled before it finished.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, thiserror::Error)]
+#[error("the scene was cancelled by a newer request")]
+pub struct Cancelled;
+
+/// Computes everything a view draws, in parallel where it pays. Returns [`Cancelled`] as soon
+/// as `cancel` is set (a stale scene is never finished, let alone drawn).
+pub fn build_scene(
+    model: &crate::model::Model,
+    request: &SceneRequest,
+    cancel: &Cancel,
+) -> Result<Scene, Cancelled> {
+    let check = || {
+        if cancel.is_cancelled() {
+            Err(Cancelled)
+        } else {
+            Ok(())
+        }
+    };
+    check()?;
+    let [xn, yn] = model.variables();
+    let mut scene = Scene {
+        title: model.spec().name.clone(),
+        variables: [xn.to_owned(), yn.to_owned()],
+        window: model.window(),
+        ..Scene::default()
+    };
+
+    // Three independent strands: the plane's geometry, the equilibria and what hangs off them,
+    // and the orbits.
+    let (geometry, (dynamics, orbits)) = rayon::join(
+        || -> Result<_, Cancelled> {
+            check()?;
+            let field = request
+                .field
+                .map(|(nx, ny)| crate::field::direction_field(model, nx, ny));
+            check()?;
+            let nullclines = request
+                .nullcline_grid
+                .map(|n| crate::nullcline::nullclines(model, n))
+                .unwrap_or_default();
+            check()?;
+            let contours = match (&request.contours, model.has_invariant()) {
+                (Some(ContourLevels::Count(k)), true) => {
+                    crate::contour::default_contours(model, *k, request.contour_grid)
+                }
+                (Some(ContourLevels::Levels(levels)), true) => {
+                    crate::contour::contours(model, levels, request.contour_grid)
+                }
+                (Some(ContourLevels::Through(points)), true) => {
+                    let levels: Vec<f64> = points
+                        .iter()
+                        .filter_map(|p| crate::contour::level_through(model, *p))
+                        .collect();
+                    crate::contour::contours(model, &levels, request.contour_grid)
+                }
+                _ => Vec::new(),
+            };
+            check()?;
+            let streamlines = if request.streamlines {
+                crate::streamlines::streamlines(
+                    model,
+                    &crate::streamlines::StreamlineOptions::default(),
+                    &|| cancel.is_cancelled(),
+                )
+            } else {
+                Vec::new()
+            };
+            check()?;
+            Ok((field, nullclines, contours, streamlines))
+        },
+        || {
+            rayon::join(
+                || -> Result<_, Cancelled> {
+                    check()?;
+                    let analysis = crate::analysis::analyze(model);
+                    check()?;
+                    let separatrices = if request.separatrices {
+                        crate::separatrix::separatrices(
+                            model,
+                            &analysis.equilibria,
+                            &crate::separatrix::SeparatrixOptions::default(),
+                        )
+                    } else {
+                        Vec::new()
+                    };
+                    check()?;
+                    let cycles = if request.limit_cycles {
+                        crate::cycle::limit_cycles_near(
+                            model,
+                            &analysis.equilibria,
+                            &crate::cycle::CycleOptions::default(),
+                        )
+                    } else {
+                        Vec::new()
+                    };
+                    Ok((analysis.equilibria, separatrices, cycles))
+                },
+                || -> Result<Vec<SceneOrbit>, Cancelled> {
+                    use rayon::prelude::*;
+                    request
+                        .seeds
+                        .par_iter()
+                        .filter_map(|seed| {
+                            if cancel.is_cancelled() {
+                                return Some(Err(Cancelled));
+                            }
+                            scene_orbit(model, seed, request).map(Ok)
+                        })
+                        .collect()
+                },
+            )
+        },
+    );
+    let (field, nullclines, contours, streamlines) = geometry?;
+    let (equilibria, separatrices, limit_cycles) = dynamics?;
+    scene.field = field;
+    scene.nullclines = nullclines;
+    scene.contours = contours;
+    scene.streamlines = streamlines;
+    scene.equilibria = equilibria;
+    scene.separatrices = separatrices;
+    scene.limit_cycles = limit_cycles;
+    scene.orbits = orbits?;
+    check()?;
+    Ok(scene)
+}
+
+/// One orbit for drawing: integrated, measured and resampled from the dense output. `None`
+/// when the seed is unusable (non-finite).
+pub fn scene_orbit(
+    model: &crate::model::Model,
+    seed: &Seed,
+    request: &SceneRequest,
+) -> Option<SceneOrbit> {
+    use crate::orbit::{OrbitOptions, run_orbit};
+    let opts = |t_end: f64| OrbitOptions {
+        t_end,
+        rtol: request.orbit_rtol,
+        ..OrbitOptions::default()
+    };
+    let t = request.orbit_time.abs().max(f64::MIN_POSITIVE);
+    let forward = match seed.direction {
+        TimeDirection::Forward | TimeDirection::Both => run_orbit(model, seed.at, &opts(t)).ok(),
+        TimeDirection::Backward => None,
+    };
+    let backward = match seed.direction {
+        TimeDirection::Backward | TimeDirection::Both => run_orbit(model, seed.at, &opts(-t)).ok(),
+        TimeDirection::Forward => None,
+    };
+    let per_step = request.points_per_step.max(1);
+    let mut times = Vec::new();
+    let mut points = Vec::new();
+    if let Some(b) = &backward {
+        let (ts, ps) = dense_points(&b.trajectory, per_step);
+        // Backward part reversed so the whole curve runs forward in time.
+        times.extend(ts.into_iter().rev());
+        points.extend(ps.into_iter().rev());
+    }
+    if let Some(f) = &forward {
+        let (ts, ps) = dense_points(&f.trajectory, per_step);
+        let skip = usize::from(!times.is_empty());
+        times.extend(ts.into_iter().skip(skip));
+        points.extend(ps.into_iter().skip(skip));
+    }
+    // Measurements come from the forward run when there is one.
+    let report = forward.as_ref().or(backward.as_ref())?;
+    let summary = OrbitSummary {
+        closed: report.closed,
+        period: report.period,
+        min: report.min,
+        max: report.max,
+        mean: report.mean,
+        lag_fraction: report.lag_fraction,
+        amplitude: [
+            0.5 * (report.max[0] - report.min[0]),
+            0.5 * (report.max[1] - report.min[1]),
+        ],
+    };
+    Some(SceneOrbit {
+        seed: seed.at,
+        times,
+        points,
+        summary,
+    })
+}
+
+/// Points along a trajectory: every step's dense output sampled `per_step` times.
+fn dense_points<const N: usize>(
+    traj: &crate::integrate::Trajectory<N>,
+    per_step: usize,
+) -> (Vec<f64>, Vec<Point>) {
+    let steps = traj.interpolants();
+    let mut ts = Vec::with_capacity(steps.len() * per_step + 1);
+    let mut ps = Vec::with_capacity(steps.len() * per_step + 1);
+    let t0 = traj.t_start();
+    let y0 = traj.ys().first().copied();
+    if let Some(y) = y0 {
+        ts.push(t0);
+        ps.push([y[0], y[1]]);
+    }
+    for d in steps {
+        let (a, b) = (d.t_start(), d.t_end());
+        for k in 1..=per_step {
+            let t = a + (b - a) * k as f64 / per_step as f64;
+            let y = d.eval(t);
+            ts.push(t);
+            ps.push([y[0], y[1]]);
+        }
+    }
+    (ts, ps)
+}
