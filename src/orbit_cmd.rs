@@ -105,6 +105,7 @@ pub fn to_json(r: &OrbitReport) -> serde_json::Value {
         "min": pair(r.min),
         "max": pair(r.max),
         "mean": pair(r.mean),
+        "amplitude": pair([0.5 * (r.max[0] - r.min[0]), 0.5 * (r.max[1] - r.min[1])]),
         "closed": r.closed,
         "period": r.period.map(num),
         "lag_fraction": r.lag_fraction.map(num),

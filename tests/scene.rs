@@ -93,3 +93,33 @@ fn lotka_volterra_orbit_lies_on_the_contour_through_its_seed() {
         assert!(d < spacing, "orbit point {p:?} is {d} from the contour");
     }
 }
+
+/// Closed form (common practice): near the Lotka–Volterra centre the linearised solution has
+/// period 2π/√(ac) and follows the real orbit; the measured nonlinear period is close to it.
+#[test]
+fn linear_overlay_near_the_centre_tracks_the_orbit() {
+    let model = Model::new(&library::default_model()).expect("compiles");
+    let request = SceneRequest {
+        linear_overlays: true,
+        orbit_time: 10.0,
+        ..request_with_seeds(vec![Seed {
+            at: [20.5, 10.0],
+            direction: TimeDirection::Forward,
+        }])
+    };
+    let scene = build_scene(&model, &request, &Cancel::new()).expect("not cancelled");
+    let overlay = scene.linear_overlays[0]
+        .as_ref()
+        .expect("an overlay about the centre");
+    let linear = overlay.linear_period.expect("complex eigenvalues");
+    assert!((linear - std::f64::consts::TAU / 1.5_f64.sqrt()).abs() < 1e-12);
+    let nonlinear = overlay.nonlinear_period.expect("the orbit closes");
+    assert!(
+        (nonlinear - linear).abs() / linear < 1e-3,
+        "{nonlinear} vs {linear}"
+    );
+    // The overlay starts at the seed.
+    assert!(
+        (overlay.points[0][0] - 20.5).abs() < 1e-12 && (overlay.points[0][1] - 10.0).abs() < 1e-12
+    );
+}

@@ -31,6 +31,7 @@ pub fn default_request() -> SceneRequest {
         orbit_time: three_periods,
         orbit_rtol: 1e-9,
         points_per_step: 8,
+        linear_overlays: false,
     }
 }
 

@@ -10,6 +10,8 @@ use crate::model::{ModelSpec, Parameter, Window};
 pub struct Builtin {
     /// Identifier used on the command line (`quarry analyze lotka-volterra`).
     pub key: &'static str,
+    /// A title for figures and windows.
+    pub title: &'static str,
     /// One line on what the model is.
     pub summary: &'static str,
     /// Variable names.
@@ -28,7 +30,7 @@ impl Builtin {
     /// The model's specification with its default parameters.
     pub fn spec(&self) -> ModelSpec {
         ModelSpec {
-            name: self.key.to_owned(),
+            name: self.title.to_owned(),
             variables: self.variables.map(str::to_owned),
             rates: self.rates.map(str::to_owned),
             parameters: self
@@ -51,6 +53,7 @@ impl Builtin {
 pub const BUILTINS: &[Builtin] = &[
     Builtin {
         key: "lotka-volterra",
+        title: "Lotka–Volterra predator–prey",
         summary: "predator–prey with linear feeding: closed cycles around a centre",
         variables: ["x", "y"],
         rates: ["a*x - alpha*x*y", "-c*y + gamma*x*y"],
@@ -60,6 +63,7 @@ pub const BUILTINS: &[Builtin] = &[
     },
     Builtin {
         key: "logistic-prey",
+        title: "Logistic prey, linear predator",
         summary: "logistic prey, linear predator: a damped spiral to coexistence",
         variables: ["x", "y"],
         rates: ["r*x*(1 - x/K) - alpha*x*y", "-c*y + gamma*x*y"],
@@ -75,6 +79,7 @@ pub const BUILTINS: &[Builtin] = &[
     },
     Builtin {
         key: "holling-ii",
+        title: "Logistic prey, Holling type II predator",
         summary: "logistic prey, saturating (Holling type II) predator: spiral or limit cycle",
         variables: ["x", "y"],
         rates: [
@@ -94,6 +99,7 @@ pub const BUILTINS: &[Builtin] = &[
     },
     Builtin {
         key: "holling-iii",
+        title: "Logistic prey, Holling type III predator",
         summary: "logistic prey, sigmoid (Holling type III) predator",
         variables: ["x", "y"],
         rates: [
@@ -113,6 +119,7 @@ pub const BUILTINS: &[Builtin] = &[
     },
     Builtin {
         key: "beddington-deangelis",
+        title: "Beddington–DeAngelis predator interference",
         summary: "predator interference (Beddington–DeAngelis feeding)",
         variables: ["x", "y"],
         rates: [
@@ -133,6 +140,7 @@ pub const BUILTINS: &[Builtin] = &[
     },
     Builtin {
         key: "leslie-gower",
+        title: "Leslie–Gower predator–prey",
         summary: "predator whose carrying capacity follows the prey (Leslie–Gower)",
         variables: ["x", "y"],
         rates: ["r*x*(1 - x/K) - a*x*y", "s*y*(1 - y/(n*x))"],
@@ -142,6 +150,7 @@ pub const BUILTINS: &[Builtin] = &[
     },
     Builtin {
         key: "competition",
+        title: "Two competing stocks",
         summary: "two stocks competing for one resource (Lotka–Volterra competition)",
         variables: ["x", "y"],
         rates: ["r1*x*(1 - (x + a12*y)/K1)", "r2*y*(1 - (y + a21*x)/K2)"],
@@ -158,6 +167,7 @@ pub const BUILTINS: &[Builtin] = &[
     },
     Builtin {
         key: "schaefer",
+        title: "Schaefer harvested stock",
         summary: "one logistic stock under fishing effort E; y relaxes to the catch rate",
         variables: ["x", "y"],
         rates: ["r*x*(1 - x/K) - q*E*x", "q*E*x - y"],
@@ -167,6 +177,7 @@ pub const BUILTINS: &[Builtin] = &[
     },
     Builtin {
         key: "van-der-pol",
+        title: "Van der Pol oscillator",
         summary: "reference oscillator (not a population model): one attracting limit cycle",
         variables: ["x", "y"],
         rates: ["y", "mu*(1 - x^2)*y - x"],
@@ -176,6 +187,7 @@ pub const BUILTINS: &[Builtin] = &[
     },
     Builtin {
         key: "brusselator",
+        title: "Brusselator",
         summary: "reference chemical oscillator: Hopf point at b = 1 + a^2",
         variables: ["x", "y"],
         rates: ["a - (b + 1)*x + x^2*y", "b*x - x^2*y"],

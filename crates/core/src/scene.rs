@@ -179,6 +179,9 @@ pub struct Scene {
     pub contours: Vec<Contour>,
     /// Limit cycles found.
     pub limit_cycles: Vec<LimitCycle>,
+    /// For each orbit (same order), the linearised solution about the nearest non-saddle
+    /// equilibrium from the same start, when asked for.
+    pub linear_overlays: Vec<Option<crate::linearised::LinearOverlay>>,
 }
 
 /// Which way in time an orbit runs from its seed.
@@ -238,6 +241,9 @@ pub struct SceneRequest {
     pub orbit_rtol: f64,
     /// Points drawn per integration step (dense output), at least 1.
     pub points_per_step: usize,
+    /// Also compute the linearised solution from each seed about the nearest equilibrium
+    /// that is not a saddle, to show where the linear picture stops holding.
+    pub linear_overlays: bool,
 }
 
 impl Default for SceneRequest {
@@ -254,6 +260,7 @@ impl Default for SceneRequest {
             orbit_time: 30.0,
             orbit_rtol: 1e-9,
             points_per_step: 8,
+            linear_overlays: false,
         }
     }
 }
@@ -403,6 +410,29 @@ pub fn build_scene(
     scene.separatrices = separatrices;
     scene.limit_cycles = limit_cycles;
     scene.orbits = orbits?;
+    if request.linear_overlays {
+        scene.linear_overlays = request
+            .seeds
+            .iter()
+            .map(|seed| {
+                let centre = scene
+                    .equilibria
+                    .iter()
+                    .filter(|e| e.class() != crate::linear::Class::Saddle)
+                    .min_by(|a, b| {
+                        let d = |e: &Equilibrium| (e.x - seed.at[0]).hypot(e.y - seed.at[1]);
+                        d(a).total_cmp(&d(b))
+                    })?;
+                Some(crate::linearised::linear_overlay(
+                    model,
+                    centre,
+                    seed.at,
+                    request.orbit_time,
+                    512,
+                ))
+            })
+            .collect();
+    }
     check()?;
     Ok(scene)
 }
