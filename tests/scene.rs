@@ -123,3 +123,18 @@ fn linear_overlay_near_the_centre_tracks_the_orbit() {
         (overlay.points[0][0] - 20.5).abs() < 1e-12 && (overlay.points[0][1] - 10.0).abs() < 1e-12
     );
 }
+
+/// A first integral that is not conserved is not drawn as level curves.
+#[test]
+fn an_unverified_first_integral_draws_no_contours() {
+    let mut spec = library::default_model();
+    spec.invariant = Some("x + y".into());
+    let model = Model::new(&spec).expect("compiles");
+    let scene =
+        build_scene(&model, &request_with_seeds(vec![]), &Cancel::new()).expect("not cancelled");
+    assert!(scene.contours.is_empty());
+    let honest = Model::new(&library::default_model()).expect("compiles");
+    let scene =
+        build_scene(&honest, &request_with_seeds(vec![]), &Cancel::new()).expect("not cancelled");
+    assert_eq!(scene.contours.len(), 10);
+}

@@ -328,7 +328,9 @@ pub fn build_scene(
                 .map(|n| crate::nullcline::nullclines(model, n))
                 .unwrap_or_default();
             check()?;
-            let contours = match (&request.contours, model.has_invariant()) {
+            // Only a first integral that is really conserved gets drawn as level curves.
+            let conserved = crate::verdict::check_invariant(model).is_some_and(|c| c.verified);
+            let contours = match (&request.contours, conserved) {
                 (Some(ContourLevels::Count(k)), true) => {
                     crate::contour::default_contours(model, *k, request.contour_grid)
                 }
