@@ -218,7 +218,7 @@ mod tests {
     use super::*;
     use crate::integrate::{self, Options};
     use crate::library;
-    use crate::model::{ModelSpec, Window};
+
     use crate::scene::Polyline;
 
     fn lv() -> Model {
@@ -226,20 +226,7 @@ mod tests {
     }
 
     fn custom(rates: [&str; 2], invariant: Option<&str>, window: [f64; 4]) -> Model {
-        let spec = ModelSpec {
-            name: "test".into(),
-            variables: ["x".into(), "y".into()],
-            rates: rates.map(str::to_owned),
-            parameters: vec![],
-            invariant: invariant.map(str::to_owned),
-            window: Window {
-                x_min: window[0],
-                x_max: window[1],
-                y_min: window[2],
-                y_max: window[3],
-            },
-        };
-        Model::new(&spec).expect("model compiles")
+        crate::test_support::model(rates, &[], invariant, window)
     }
 
     /// Largest |H − level| accepted at a refined vertex. Newton stops after a step below 1e-7

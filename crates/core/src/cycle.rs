@@ -684,31 +684,16 @@ fn one_period(
 mod tests {
     use super::*;
     use crate::analysis::analyze;
-    use crate::library;
-    use crate::model::{ModelSpec, Parameter};
+
     use std::f64::consts::TAU;
     use std::time::Instant;
 
     fn builtin(key: &str) -> Model {
-        let spec = library::builtin(key).expect("built in").spec();
-        Model::new(&spec).expect("compiles")
+        crate::test_support::builtin(key)
     }
 
     fn custom(rates: [&str; 2], params: &[(&str, f64)], window: [f64; 4]) -> Model {
-        let spec = ModelSpec {
-            name: "test".into(),
-            variables: ["x".into(), "y".into()],
-            rates: rates.map(str::to_owned),
-            parameters: params.iter().map(|&(n, v)| Parameter::new(n, v)).collect(),
-            invariant: None,
-            window: Window {
-                x_min: window[0],
-                x_max: window[1],
-                y_min: window[2],
-                y_max: window[3],
-            },
-        };
-        Model::new(&spec).expect("compiles")
+        crate::test_support::model(rates, params, None, window)
     }
 
     /// The period in tests/reference/van_der_pol_period.json, parsed by hand.

@@ -157,23 +157,9 @@ pub fn direction_field(model: &Model, nx: usize, ny: usize) -> DirectionField {
 mod tests {
     use super::*;
     use crate::library;
-    use crate::model::{ModelSpec, Window};
 
     fn custom(rates: [&str; 2], window: [f64; 4]) -> Model {
-        let spec = ModelSpec {
-            name: "test".into(),
-            variables: ["x".into(), "y".into()],
-            rates: rates.map(str::to_owned),
-            parameters: vec![],
-            invariant: None,
-            window: Window {
-                x_min: window[0],
-                x_max: window[1],
-                y_min: window[2],
-                y_max: window[3],
-            },
-        };
-        Model::new(&spec).expect("model compiles")
+        crate::test_support::model(rates, &[], None, window)
     }
 
     /// Relative agreement allowed between the batch interpreter and the per-point evaluator

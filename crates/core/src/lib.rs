@@ -21,4 +21,6 @@ pub mod orbit;
 pub mod scene;
 pub mod separatrix;
 pub mod streamlines;
+#[cfg(test)]
+mod test_support;
 pub mod verdict;

@@ -257,28 +257,13 @@ fn drop_covered(lines: Vec<Polyline>, stretches: &[Stretch], grid: &Grid) -> Vec
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::library;
-    use crate::model::{ModelSpec, Parameter, Window};
 
     fn builtin(key: &str) -> Model {
-        Model::new(&library::builtin(key).expect("built in").spec()).expect("compiles")
+        crate::test_support::builtin(key)
     }
 
     fn custom(rates: [&str; 2], window: [f64; 4]) -> Model {
-        let spec = ModelSpec {
-            name: "test".into(),
-            variables: ["x".into(), "y".into()],
-            rates: rates.map(str::to_owned),
-            parameters: vec![Parameter::new("k", 2.0)],
-            invariant: None,
-            window: Window {
-                x_min: window[0],
-                x_max: window[1],
-                y_min: window[2],
-                y_max: window[3],
-            },
-        };
-        Model::new(&spec).expect("model compiles")
+        crate::test_support::model(rates, &[("k", 2.0)], None, window)
     }
 
     /// Largest relative distance accepted between a refined vertex and the analytic curve.

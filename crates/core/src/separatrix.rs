@@ -272,30 +272,15 @@ mod tests {
     use super::*;
     use crate::analysis::{Equilibrium, analyze};
     use crate::integrate::{Options, integrate};
-    use crate::library;
+
     use crate::linear::linearise;
-    use crate::model::{ModelSpec, Parameter};
 
     fn builtin(key: &str) -> Model {
-        let spec = library::builtin(key).expect("built in").spec();
-        Model::new(&spec).expect("compiles")
+        crate::test_support::builtin(key)
     }
 
     fn custom(rates: [&str; 2], window: [f64; 4]) -> Model {
-        let spec = ModelSpec {
-            name: "test".into(),
-            variables: ["x".into(), "y".into()],
-            rates: rates.map(str::to_owned),
-            parameters: vec![Parameter::new("k", 1.0)],
-            invariant: None,
-            window: Window {
-                x_min: window[0],
-                x_max: window[1],
-                y_min: window[2],
-                y_max: window[3],
-            },
-        };
-        Model::new(&spec).expect("compiles")
+        crate::test_support::model(rates, &[], None, window)
     }
 
     fn equilibrium_at(model: &Model, x: f64, y: f64) -> Equilibrium {

@@ -498,29 +498,15 @@ fn typical_screen_speed(model: &Model, map: &ScreenMap) -> Option<f64> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::library;
-    use crate::model::{ModelSpec, Window};
+
     use std::cell::Cell;
 
     fn builtin(key: &str) -> Model {
-        Model::new(&library::builtin(key).expect("built in").spec()).expect("compiles")
+        crate::test_support::builtin(key)
     }
 
     fn custom(rates: [&str; 2], window: [f64; 4]) -> Model {
-        let spec = ModelSpec {
-            name: "test".into(),
-            variables: ["x".into(), "y".into()],
-            rates: rates.map(str::to_owned),
-            parameters: vec![],
-            invariant: None,
-            window: Window {
-                x_min: window[0],
-                x_max: window[1],
-                y_min: window[2],
-                y_max: window[3],
-            },
-        };
-        Model::new(&spec).expect("model compiles")
+        crate::test_support::model(rates, &[], None, window)
     }
 
     fn never() -> bool {
