@@ -315,15 +315,7 @@ pub(crate) fn stiffness_estimate<const N: usize>(
     trial: &Trial<N>,
     k: &[[f64; N]; STAGES],
 ) -> f64 {
-    let squared =
-        |p: &[f64; N], q: &[f64; N]| -> f64 { p.iter().zip(q).map(|(p, q)| (p - q).powi(2)).sum() };
-    let num = squared(&k[12], &k[11]);
-    let den = squared(&trial.y_new, &trial.y_stiff);
-    if den > 0.0 {
-        h.abs() * (num / den).sqrt()
-    } else {
-        0.0
-    }
+    super::rk::stiffness_ratio(h, &k[12], &k[11], trial)
 }
 
 /// Coefficients `r₀..r₇` of the continuous extension of an accepted step; needs `k[12]` =

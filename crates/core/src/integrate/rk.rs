@@ -55,3 +55,23 @@ pub(crate) fn scale(atol: f64, rtol: f64, y: f64, y_new: f64) -> f64 {
 pub(crate) fn all_finite<const N: usize>(v: &[f64; N]) -> bool {
     v.iter().all(|x| x.is_finite())
 }
+
+/// Hairer's stiffness ratio `|h|·‖k_last − k_prev‖ / ‖y_new − y_stiff‖` (`HLAMB`), from the last
+/// two stages evaluated at the same point in time.
+#[inline]
+pub(crate) fn stiffness_ratio<const N: usize>(
+    h: f64,
+    k_last: &[f64; N],
+    k_prev: &[f64; N],
+    trial: &Trial<N>,
+) -> f64 {
+    let squared =
+        |p: &[f64; N], q: &[f64; N]| -> f64 { p.iter().zip(q).map(|(p, q)| (p - q).powi(2)).sum() };
+    let num = squared(k_last, k_prev);
+    let den = squared(&trial.y_new, &trial.y_stiff);
+    if den > 0.0 {
+        h.abs() * (num / den).sqrt()
+    } else {
+        0.0
+    }
+}
