@@ -9,6 +9,7 @@ mod model_args;
 mod orbit_cmd;
 mod output;
 mod render_cmd;
+mod scenario_cmd;
 
 use std::process::ExitCode;
 
@@ -34,6 +35,10 @@ enum Command {
     Orbit(orbit_cmd::OrbitArgs),
     /// Draw the phase portrait as SVG or PNG.
     Render(render_cmd::RenderArgs),
+    /// Check a scenario file: exit 0 when valid, 2 with line, column and field when not.
+    Check(scenario_cmd::FileArgs),
+    /// Rewrite a scenario file in canonical form.
+    Fmt(scenario_cmd::FileArgs),
     /// List the built-in models.
     Models,
 }
@@ -86,6 +91,8 @@ fn run(cli: Cli) -> Result<(), Failure> {
         Some(Command::Analyze(args)) => analyze_cmd::run(&args),
         Some(Command::Orbit(args)) => orbit_cmd::run(&args),
         Some(Command::Render(args)) => render_cmd::run(&args),
+        Some(Command::Check(args)) => scenario_cmd::check(&args),
+        Some(Command::Fmt(args)) => scenario_cmd::fmt(&args),
         Some(Command::Models) => {
             let mut out = String::new();
             for b in quarry_core::library::BUILTINS {

@@ -4,13 +4,15 @@
 use clap::Args;
 use quarry_core::library;
 use quarry_core::model::{Model, ModelSpec, Parameter, Window};
+use quarry_core::scenario::Scenario;
 
 use crate::Failure;
 
 /// Model selection, shared by every subcommand.
 #[derive(Args, Debug, Clone)]
 pub struct ModelArgs {
-    /// A built-in model (see `quarry models`). Omit it to give the model with --var.
+    /// A scenario file (`FILE.ron`) or a built-in model (see `quarry models`). Omit it to give
+    /// the model with --var.
     #[arg(value_name = "MODEL")]
     pub model: Option<String>,
 
@@ -34,6 +36,11 @@ pub struct ModelArgs {
     /// A first integral H(x, y) to use (verified before it is trusted).
     #[arg(long, value_name = "EXPR", allow_hyphen_values = true)]
     pub invariant: Option<String>,
+}
+
+/// Whether a MODEL argument names a scenario file rather than a built-in model.
+fn looks_like_file(name: &str) -> bool {
+    name.ends_with(".ron") || name.contains('/') || std::path::Path::new(name).is_file()
 }
 
 /// Splits `NAME=VALUE` at the first '='.
@@ -90,12 +97,17 @@ impl ModelArgs {
                     "give either a MODEL or --var formulas, not both".into(),
                 ));
             }
+            (Some(name), true) if looks_like_file(name) => {
+                Scenario::load(std::path::Path::new(name))
+                    .map_err(|e| Failure::Usage(format!("{name}: {e}")))?
+                    .model_spec()
+            }
             (Some(name), true) => match library::builtin(name) {
                 Some(b) => b.spec(),
                 None => {
                     let known: Vec<&str> = library::BUILTINS.iter().map(|b| b.key).collect();
                     return Err(Failure::Usage(format!(
-                        "unknown model '{name}' (built-in models: {})",
+                        "unknown model '{name}': not a file, and not a built-in model ({})",
                         known.join(", ")
                     )));
                 }

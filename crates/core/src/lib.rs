@@ -18,6 +18,7 @@ pub mod marching;
 pub mod model;
 pub mod nullcline;
 pub mod orbit;
+pub mod scenario;
 pub mod scene;
 pub mod separatrix;
 pub mod streamlines;

@@ -39,6 +39,7 @@ impl Parameter {
 
 /// The rectangle of the phase plane under study, in the model's own units.
 #[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Window {
     /// Left edge (first variable).
     pub x_min: f64,
