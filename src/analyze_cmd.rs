@@ -22,12 +22,20 @@ pub struct AnalyzeArgs {
 
 /// Runs the subcommand.
 pub fn run(args: &AnalyzeArgs) -> Result<(), Failure> {
-    let model = args.model.model()?;
+    let (model, harvest, _) = args.model.harvested()?;
     let analysis = analysis::analyze(&model);
     let text = if args.json {
-        json_text(&to_json(&model, &analysis))
+        let mut v = to_json(&model, &analysis);
+        if harvest.is_active() {
+            v["caution"] = quarry_core::harvest::CAUTION.into();
+        }
+        json_text(&v)
     } else {
-        table(&model, &analysis)
+        let mut t = table(&model, &analysis);
+        if harvest.is_active() {
+            t.push_str(&format!("\n{}\n", quarry_core::harvest::CAUTION));
+        }
+        t
     };
     write_stdout(&text)
 }

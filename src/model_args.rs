@@ -2,6 +2,7 @@
 //! argument, or `--var`, `--param` and `--window`; `--set` overrides a parameter.
 
 use clap::Args;
+use quarry_core::harvest::{Harvest, HarvestRule};
 use quarry_core::library;
 use quarry_core::model::{Model, ModelSpec, Parameter, Window};
 use quarry_core::scenario::Scenario;
@@ -32,6 +33,19 @@ pub struct ModelArgs {
     /// The window `XMIN,XMAX,YMIN,YMAX` (default 0,10,0,10, or the built-in model's own).
     #[arg(long, value_name = "XMIN,XMAX,YMIN,YMAX", allow_hyphen_values = true)]
     pub window: Option<String>,
+
+    /// Harvest one species: `VAR:proportional:E=..,q=..`, `VAR:quota:H=..[,s=..]` or
+    /// `VAR:threshold:lower=..,upper=..,rate=..` (repeatable, one per species).
+    #[arg(long = "harvest", value_name = "VAR:RULE:ARGS")]
+    pub harvest: Vec<String>,
+
+    /// Price per unit catch for a species, `VAR=PRICE` (for profit along orbits).
+    #[arg(long = "price", value_name = "VAR=PRICE")]
+    pub price: Vec<String>,
+
+    /// Cost per unit effort for a species, `VAR=COST`.
+    #[arg(long = "cost", value_name = "VAR=COST")]
+    pub cost: Vec<String>,
 
     /// A first integral H(x, y) to use (verified before it is trusted).
     #[arg(long, value_name = "EXPR", allow_hyphen_values = true)]
@@ -81,13 +95,112 @@ pub fn parse_list<const N: usize>(text: &str, what: &str) -> Result<[f64; N], Fa
 }
 
 impl ModelArgs {
-    /// Builds the model these arguments describe.
+    /// Builds the model these arguments describe (with any harvest applied).
     pub fn model(&self) -> Result<Model, Failure> {
+        let (model, _, _) = self.harvested()?;
+        Ok(model)
+    }
+
+    /// The harvested model, the harvest, and the unharvested specification.
+    pub fn harvested(&self) -> Result<(Model, Harvest, ModelSpec), Failure> {
         let mut spec = self.spec()?;
         if let Some(h) = &self.invariant {
             spec.invariant = Some(h.clone());
         }
-        Model::new(&spec).map_err(|e| Failure::Usage(e.to_string()))
+        let harvest = self.harvest_rules(&spec)?;
+        let applied = harvest
+            .apply(&spec)
+            .map_err(|e| Failure::Usage(format!("--harvest: {e}")))?;
+        let model = Model::new(&applied).map_err(|e| Failure::Usage(e.to_string()))?;
+        Ok((model, harvest, spec))
+    }
+
+    fn harvest_rules(&self, spec: &ModelSpec) -> Result<Harvest, Failure> {
+        let mut harvest = Harvest::default();
+        let index = |var: &str, option: &str| {
+            spec.variables.iter().position(|v| v == var).ok_or_else(|| {
+                Failure::Usage(format!(
+                    "{option}: '{var}' is not a variable of the model (it has {} and {})",
+                    spec.variables[0], spec.variables[1]
+                ))
+            })
+        };
+        for arg in &self.harvest {
+            let mut parts = arg.splitn(3, ':');
+            let (Some(var), Some(rule)) = (parts.next(), parts.next()) else {
+                return Err(Failure::Usage(format!(
+                    "--harvest '{arg}': expected VAR:RULE:ARGS, e.g. x:proportional:E=0.3,q=1"
+                )));
+            };
+            let i = index(var, "--harvest")?;
+            let mut values = std::collections::BTreeMap::new();
+            for kv in parts
+                .next()
+                .unwrap_or("")
+                .split(',')
+                .filter(|s| !s.trim().is_empty())
+            {
+                let (k, v) = split_assignment(kv, "--harvest")?;
+                values.insert(
+                    k.to_owned(),
+                    parse_number(v, &format!("--harvest {var} {k}"))?,
+                );
+            }
+            let take = |values: &mut std::collections::BTreeMap<String, f64>, k: &str| {
+                values.remove(k).ok_or_else(|| {
+                    Failure::Usage(format!(
+                        "--harvest '{arg}': the {rule} rule needs {k}=VALUE"
+                    ))
+                })
+            };
+            let r = match rule {
+                "proportional" => HarvestRule::Proportional {
+                    effort: take(&mut values, "E")?,
+                    catchability: values.remove("q").unwrap_or(1.0),
+                },
+                "quota" => HarvestRule::Quota {
+                    quota: take(&mut values, "H")?,
+                    taper: values.remove("s"),
+                },
+                "threshold" => HarvestRule::Threshold {
+                    lower: take(&mut values, "lower")?,
+                    upper: take(&mut values, "upper")?,
+                    target_rate: take(&mut values, "rate")?,
+                },
+                other => {
+                    return Err(Failure::Usage(format!(
+                        "--harvest '{arg}': unknown rule '{other}' (proportional, quota or threshold)"
+                    )));
+                }
+            };
+            if let Some(extra) = values.keys().next() {
+                return Err(Failure::Usage(format!(
+                    "--harvest '{arg}': the {rule} rule takes no '{extra}'"
+                )));
+            }
+            if harvest.rules[i] != HarvestRule::None {
+                return Err(Failure::Usage(format!(
+                    "--harvest: {var} is harvested twice"
+                )));
+            }
+            harvest.rules[i] = r;
+        }
+        for (list, option, is_price) in [
+            (&self.price, "--price", true),
+            (&self.cost, "--cost", false),
+        ] {
+            for arg in list {
+                let (var, v) = split_assignment(arg, option)?;
+                let i = index(var, option)?;
+                let v = parse_number(v, &format!("{option} {var}"))?;
+                if is_price {
+                    harvest.economics[i].price = v;
+                } else {
+                    harvest.economics[i].cost_per_effort = v;
+                }
+            }
+        }
+        Ok(harvest)
     }
 
     fn spec(&self) -> Result<ModelSpec, Failure> {

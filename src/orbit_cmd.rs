@@ -1,6 +1,7 @@
 //! `quarry orbit`: integrate one orbit and measure it, or write it as CSV rows.
 
 use clap::Args;
+use quarry_core::harvest;
 use quarry_core::orbit::{self, OrbitOptions, OrbitReport};
 use serde_json::json;
 
@@ -46,7 +47,7 @@ pub struct OrbitArgs {
 
 /// Runs the subcommand.
 pub fn run(args: &OrbitArgs) -> Result<(), Failure> {
-    let model = args.model.model()?;
+    let (model, harvest, base_spec) = args.model.harvested()?;
     let [x0, y0] = parse_list::<2>(&args.from, "--from")?;
     let t_end = parse_number(&args.t_end, "--t-end")?;
     if t_end == 0.0 {
@@ -79,6 +80,14 @@ pub fn run(args: &OrbitArgs) -> Result<(), Failure> {
     let report = orbit::run_orbit(&model, [x0, y0], &opts)
         .map_err(|e| Failure::Usage(format!("orbit: {e}")))?;
     let [xn, yn] = model.variables();
+    let yields = if harvest.is_active() {
+        Some(
+            harvest::yield_along(&model, &harvest, &base_spec, &report)
+                .map_err(|e| Failure::Usage(format!("--harvest: {e}")))?,
+        )
+    } else {
+        None
+    };
     let text = if args.csv {
         let dt = args.dt.unwrap_or(1.0);
         let mut s = format!("t,{xn},{yn}\n");
@@ -87,9 +96,28 @@ pub fn run(args: &OrbitArgs) -> Result<(), Failure> {
         }
         s
     } else if args.json {
-        json_text(&to_json(&report))
+        let mut v = to_json(&report);
+        if let Some(y) = &yields {
+            v["harvest"] = json!({
+                "mean_catch": [num(y.mean_catch[0]), num(y.mean_catch[1])],
+                "mean_profit": num(y.mean_profit),
+                "over_time": num(y.span),
+                "caution": harvest::CAUTION,
+            });
+        }
+        json_text(&v)
     } else {
-        table(&report, xn, yn)
+        let mut t = table(&report, xn, yn);
+        if let Some(y) = &yields {
+            t.push_str(&format!(
+                "mean catch per unit time: {xn} {}, {yn} {}; mean profit {}\n{}\n",
+                fmt(y.mean_catch[0]),
+                fmt(y.mean_catch[1]),
+                fmt(y.mean_profit),
+                harvest::CAUTION
+            ));
+        }
+        t
     };
     write_stdout(&text)
 }

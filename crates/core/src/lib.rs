@@ -10,6 +10,7 @@ pub mod cycle;
 pub mod equilibria;
 pub mod expr;
 pub mod field;
+pub mod harvest;
 pub mod integrate;
 pub mod library;
 pub mod linear;
