@@ -308,10 +308,9 @@ pub fn yield_along(
         [0.0, 0.0]
     };
     let mut profit = 0.0;
-    for i in 0..2 {
-        let econ = harvest.economics[i];
-        profit += econ.price * mean_catch[i];
-        if let HarvestRule::Proportional { effort, .. } = harvest.rules[i] {
+    for ((econ, rule), catch) in harvest.economics.iter().zip(&harvest.rules).zip(mean_catch) {
+        profit += econ.price * catch;
+        if let HarvestRule::Proportional { effort, .. } = rule {
             profit -= econ.cost_per_effort * effort;
         }
     }
