@@ -340,3 +340,51 @@ fn render_refuses_bad_requests_with_status_2() {
         assert_eq!(out.status.code(), Some(2), "{args:?}");
     }
 }
+
+/// The sweep contract; the fold of a logistic stock under a constant quota at H = rK/4 is a
+/// closed form (common practice in fisheries science).
+#[test]
+fn sweep_json_follows_the_contract_and_locates_the_quota_fold() {
+    let out = quarry(&[
+        "sweep",
+        "--var",
+        "x=r*x*(1-x/K) - H",
+        "--var",
+        "y=-y",
+        "--param",
+        "r=1",
+        "--param",
+        "K=10",
+        "--param",
+        "H=123",
+        "--param",
+        "H",
+        "--from",
+        "0",
+        "--to",
+        "4",
+        "--steps",
+        "9",
+        "--window",
+        "-1,12,-1,1",
+        "--json",
+    ]);
+    let v = json_of(&out);
+    assert_eq!(v["param"], "H");
+    let points = v["points"].as_array().expect("points");
+    assert_eq!(points.len(), 9);
+    assert_eq!(points[0]["value"], 0.0);
+    assert_eq!(points[8]["value"], 4.0);
+    for key in ["x", "y", "class", "eigenvalues"] {
+        assert!(!points[0]["equilibria"][0][key].is_null(), "{key}");
+    }
+    let folds: Vec<&Value> = v["bifurcations"]
+        .as_array()
+        .expect("list")
+        .iter()
+        .filter(|b| b["kind"] == "fold")
+        .collect();
+    assert_eq!(folds.len(), 1, "{v}");
+    let h = folds[0]["value"].as_f64().expect("value");
+    assert!((h - 2.5).abs() < 2.5e-8, "fold at {h}");
+}
