@@ -10,10 +10,11 @@ mod orbit_cmd;
 mod output;
 mod render_cmd;
 mod scenario_cmd;
+mod sweep_cmd;
 
 use std::process::ExitCode;
 
-use clap::{CommandFactory, Parser, Subcommand};
+use clap::{Parser, Subcommand};
 
 /// Phase-plane workbench for two-species population models.
 ///
@@ -21,8 +22,12 @@ use clap::{CommandFactory, Parser, Subcommand};
 /// and management decisions rest on assessed data, local regulations and qualified scientific
 /// advice.
 #[derive(Parser, Debug)]
-#[command(name = "quarry", version, about, long_about = None)]
+#[command(name = "quarry", version, about, long_about = None, args_conflicts_with_subcommands = true)]
 struct Cli {
+    /// A scenario file to open in the app (default: the built-in demo scenario).
+    #[arg(value_name = "FILE.ron")]
+    file: Option<std::path::PathBuf>,
+
     #[command(subcommand)]
     command: Option<Command>,
 }
@@ -33,6 +38,8 @@ enum Command {
     Analyze(analyze_cmd::AnalyzeArgs),
     /// Integrate one orbit and measure it (period, extremes, means, lag).
     Orbit(orbit_cmd::OrbitArgs),
+    /// Follow the equilibria along one parameter and locate fold, transcritical and Hopf points.
+    Sweep(sweep_cmd::SweepArgs),
     /// Draw the phase portrait as SVG or PNG.
     Render(render_cmd::RenderArgs),
     /// Check a scenario file: exit 0 when valid, 2 with line, column and field when not.
@@ -83,14 +90,21 @@ fn main() -> ExitCode {
 fn run(cli: Cli) -> Result<(), Failure> {
     match cli.command {
         None => {
-            // The desktop app arrives in its own crate; until then show what is here.
-            Cli::command().print_help()?;
-            println!();
-            Ok(())
+            let scenario = match &cli.file {
+                Some(path) => quarry_core::scenario::Scenario::load(path)
+                    .map_err(|e| Failure::Usage(format!("{}: {e}", path.display())))?,
+                None => quarry_core::scenario::default_scenario(),
+            };
+            quarry_app::run(scenario.model_spec()).map_err(|e| {
+                Failure::Io(format!(
+                    "{e}. The headless subcommands (analyze, orbit, render, check) need no display: see `quarry --help`."
+                ))
+            })
         }
         Some(Command::Analyze(args)) => analyze_cmd::run(&args),
         Some(Command::Orbit(args)) => orbit_cmd::run(&args),
         Some(Command::Render(args)) => render_cmd::run(&args),
+        Some(Command::Sweep(args)) => sweep_cmd::run(&args),
         Some(Command::Check(args)) => scenario_cmd::check(&args),
         Some(Command::Fmt(args)) => scenario_cmd::fmt(&args),
         Some(Command::Models) => {

@@ -1,0 +1,123 @@
+//! Every change the UI asks for, as data.
+//!
+//! Panels never change the scenario while they draw: they push [`Command`]s, and the app
+//! applies them after the pass. That keeps one frame's picture consistent, gives undo/redo one
+//! place to record from, and lets tests drive the app with the same commands a click makes.
+
+use quarry_core::model::ModelSpec;
+use quarry_core::scene::TimeDirection;
+
+use crate::scenario::Layer;
+
+/// A change asked for by the UI.
+#[derive(Clone, Debug, PartialEq)]
+pub enum Command {
+    /// Replace the model with one typed in the editor (already checked to compile).
+    EditModel(ModelSpec),
+    /// Load a built-in model by its index in [`quarry_core::library::BUILTINS`].
+    LoadBuiltin(usize),
+    /// Set a parameter, by index, to a value.
+    SetParam {
+        /// Index in the model's parameter list.
+        index: usize,
+        /// The new value.
+        value: f64,
+    },
+    /// Set a parameter back to its default.
+    ResetParam(usize),
+    /// Set every parameter back to its default.
+    ResetAllParams,
+    /// Change a parameter's slider range (`None`: back to 0..2×default).
+    SetParamRange {
+        /// Index in the model's parameter list.
+        index: usize,
+        /// The range.
+        range: Option<(f64, f64)>,
+    },
+    /// Switch a parameter's slider between linear and logarithmic.
+    SetParamLogarithmic {
+        /// Index in the model's parameter list.
+        index: usize,
+        /// Logarithmic when true.
+        logarithmic: bool,
+    },
+    /// A drag or a typing burst ended: the next change starts a new undo step.
+    EndGesture,
+    /// Start an orbit at a point of the plane.
+    AddOrbit([f64; 2]),
+    /// Delete an orbit by seed id.
+    RemoveOrbit(u64),
+    /// Show or hide an orbit by seed id.
+    SetOrbitVisible(u64, bool),
+    /// Delete every orbit.
+    ClearOrbits,
+    /// Which way new orbits run.
+    SetOrbitDirection(TimeDirection),
+    /// How long orbits run (model time units).
+    SetOrbitTime(f64),
+    /// Turn a layer on or off.
+    SetLayer(Layer, bool),
+    /// Make the current view the model's window (recomputes over it).
+    UseViewAsWindow([f64; 4]),
+    /// Undo the last change.
+    Undo,
+    /// Redo the last undone change.
+    Redo,
+    /// Show the model's whole window again.
+    ResetView,
+    /// Open or close a panel.
+    ShowPanel(PanelKind, bool),
+}
+
+/// Panels that can be opened and closed.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum PanelKind {
+    /// The model editor.
+    Editor,
+    /// The equilibria table.
+    Equilibria,
+    /// The cautions about what the models are.
+    Cautions,
+    /// Keyboard shortcuts and how to use the plane.
+    Help,
+}
+
+/// Which consecutive changes merge into one undo step.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum MergeKey {
+    /// Dragging or typing one parameter's value.
+    Param(usize),
+    /// Typing in the model editor.
+    Editor,
+}
+
+impl Command {
+    /// Whether undo/redo records this command (changes to the model, parameters or orbits).
+    pub fn is_undoable(&self) -> bool {
+        matches!(
+            self,
+            Command::EditModel(_)
+                | Command::LoadBuiltin(_)
+                | Command::SetParam { .. }
+                | Command::ResetParam(_)
+                | Command::ResetAllParams
+                | Command::SetParamRange { .. }
+                | Command::SetParamLogarithmic { .. }
+                | Command::AddOrbit(_)
+                | Command::RemoveOrbit(_)
+                | Command::SetOrbitVisible(..)
+                | Command::ClearOrbits
+                | Command::SetOrbitTime(_)
+                | Command::UseViewAsWindow(_)
+        )
+    }
+
+    /// Consecutive commands with the same key make one undo step.
+    pub fn merge_key(&self) -> Option<MergeKey> {
+        match self {
+            Command::SetParam { index, .. } => Some(MergeKey::Param(*index)),
+            Command::EditModel(_) => Some(MergeKey::Editor),
+            _ => None,
+        }
+    }
+}

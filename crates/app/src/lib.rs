@@ -1,0 +1,62 @@
+//! Quarry's desktop app: the phase plane with its layers, parameter sliders, orbits started
+//! by clicking, the equilibria table and a model editor, in one window.
+//!
+//! The app holds no numerics: every number comes from `quarry-core`. What the user has set up
+//! is a [`scenario::Scenario`]; panels turn clicks into [`command::Command`]s that the app
+//! applies after each frame, and scenes are computed off the UI thread by [`worker`].
+
+pub mod app;
+pub mod cautions;
+pub mod command;
+pub mod editor;
+pub mod equilibria;
+pub mod help;
+pub mod history;
+pub mod layers;
+pub mod orbits;
+pub mod params;
+pub mod plane;
+pub mod scenario;
+pub mod status;
+pub mod style;
+pub mod toolbar;
+pub mod worker;
+
+pub use app::QuarryApp;
+
+use quarry_core::model::ModelSpec;
+
+/// Opens the Quarry window on a model and returns when it closes. Returns a one-line message
+/// instead when no window can be opened (no display, no usable OpenGL).
+pub fn run(spec: ModelSpec) -> Result<(), String> {
+    if cfg!(all(unix, not(target_os = "macos")))
+        && std::env::var_os("DISPLAY").is_none()
+        && std::env::var_os("WAYLAND_DISPLAY").is_none()
+    {
+        return Err(
+            "no display to open the window on (neither DISPLAY nor WAYLAND_DISPLAY is set)".into(),
+        );
+    }
+    let title = app::title_for(&spec);
+    let options = eframe::NativeOptions {
+        viewport: egui::ViewportBuilder::default()
+            .with_title(title)
+            .with_app_id("quarry")
+            .with_inner_size([1280.0, 800.0])
+            .with_min_inner_size([820.0, 520.0]),
+        ..Default::default()
+    };
+    let result = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+        eframe::run_native(
+            "Quarry",
+            options,
+            Box::new(move |cc| Ok(Box::new(QuarryApp::new(spec, &cc.egui_ctx)))),
+        )
+    }));
+    let one_line = |s: String| s.split_whitespace().collect::<Vec<_>>().join(" ");
+    match result {
+        Ok(Ok(())) => Ok(()),
+        Ok(Err(e)) => Err(one_line(format!("could not open the window: {e}"))),
+        Err(_) => Err("could not open the window: the windowing system failed".into()),
+    }
+}

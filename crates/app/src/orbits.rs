@@ -1,0 +1,168 @@
+//! The orbit list: how new orbits run, and each orbit's colour, start, measurements, and
+//! controls to hide or delete it.
+
+use egui::{Button, DragValue, RichText, Ui};
+use quarry_core::scene::{Scene, SceneOrbit, TimeDirection};
+
+use crate::command::Command;
+use crate::plane::match_orbits;
+use crate::scenario::{OrbitSeed, Scenario};
+use crate::style::{self, num};
+
+/// The orbit list.
+#[derive(Debug, Default)]
+pub struct OrbitsPanel;
+
+/// Which way in time, in words.
+pub fn direction_text(d: TimeDirection) -> &'static str {
+    match d {
+        TimeDirection::Forward => "forward",
+        TimeDirection::Backward => "backward",
+        TimeDirection::Both => "both ways",
+    }
+}
+
+/// One line of measurements for an orbit.
+pub fn summary_text(vars: &[String; 2], orbit: &SceneOrbit) -> String {
+    let s = &orbit.summary;
+    let [x, y] = vars;
+    if s.closed
+        && let Some(period) = s.period
+    {
+        let mut t = format!(
+            "closed · period {} · mean {x} {}, {y} {}",
+            num(period),
+            num(s.mean[0]),
+            num(s.mean[1])
+        );
+        if let Some(lag) = s.lag_fraction {
+            let pct = 100.0 * lag;
+            t.push_str(&format!(" · {y} peaks {pct:.0}% of a period after {x}"));
+        }
+        t
+    } else {
+        format!(
+            "not closed · {x} {}…{}, {y} {}…{}",
+            num(s.min[0]),
+            num(s.max[0]),
+            num(s.min[1]),
+            num(s.max[1])
+        )
+    }
+}
+
+impl OrbitsPanel {
+    /// Draws the settings and the list.
+    pub fn ui(
+        &mut self,
+        ui: &mut Ui,
+        scenario: &Scenario,
+        scene: Option<&Scene>,
+        busy: bool,
+        out: &mut Vec<Command>,
+    ) {
+        ui.horizontal(|ui| {
+            ui.heading("Orbits");
+            ui.with_layout(egui::Layout::right_to_left(egui::Align::Center), |ui| {
+                if ui
+                    .add_enabled(!scenario.seeds.is_empty(), Button::new("Clear").small())
+                    .on_hover_text("Delete every orbit")
+                    .clicked()
+                {
+                    out.push(Command::ClearOrbits);
+                }
+            });
+        });
+        ui.weak("Click the plane to start an orbit there.");
+        ui.horizontal(|ui| {
+            ui.label("Run");
+            let mut d = scenario.new_orbit_direction;
+            for (value, text) in [
+                (TimeDirection::Forward, "forward"),
+                (TimeDirection::Backward, "backward"),
+                (TimeDirection::Both, "both ways"),
+            ] {
+                if ui.radio_value(&mut d, value, text).changed() {
+                    out.push(Command::SetOrbitDirection(d));
+                }
+            }
+        });
+        ui.horizontal(|ui| {
+            let l = ui.label("for");
+            let mut t = scenario.orbit_time;
+            let r = ui
+                .add(
+                    DragValue::new(&mut t)
+                        .range(0.1..=100_000.0)
+                        .speed(0.5)
+                        .max_decimals(3),
+                )
+                .labelled_by(l.id);
+            style::accessible_name(ui, &r, "orbit run time");
+            if r.changed() && t.is_finite() && t > 0.0 {
+                out.push(Command::SetOrbitTime(t));
+            }
+            ui.label("time units each way");
+        });
+        if scenario.seeds.is_empty() {
+            return;
+        }
+        let matched = scene
+            .map(|s| match_orbits(&scenario.seeds, s))
+            .unwrap_or_else(|| vec![None; scenario.seeds.len()]);
+        ui.add_space(4.0);
+        for (seed, orbit) in scenario.seeds.iter().zip(matched) {
+            self.row_ui(ui, scenario, seed, orbit, busy, out);
+        }
+    }
+
+    fn row_ui(
+        &mut self,
+        ui: &mut Ui,
+        scenario: &Scenario,
+        seed: &OrbitSeed,
+        orbit: Option<&SceneOrbit>,
+        busy: bool,
+        out: &mut Vec<Command>,
+    ) {
+        let [x, y] = &scenario.spec.variables;
+        ui.horizontal(|ui| {
+            style::colour_swatch(ui, style::orbit_colour(seed.id));
+            let mut visible = seed.visible;
+            let r = ui
+                .checkbox(&mut visible, "")
+                .on_hover_text("Show or hide this orbit");
+            style::accessible_name(ui, &r, format!("show orbit #{}", seed.id));
+            if r.changed() {
+                out.push(Command::SetOrbitVisible(seed.id, visible));
+            }
+            let text = format!(
+                "#{} {} from {x} {}, {y} {}",
+                seed.id,
+                direction_text(seed.direction),
+                num(seed.at[0]),
+                num(seed.at[1])
+            );
+            ui.label(RichText::new(text).strong());
+            ui.with_layout(egui::Layout::right_to_left(egui::Align::Center), |ui| {
+                let r = ui
+                    .small_button("🗙")
+                    .on_hover_text(format!("Delete orbit #{}", seed.id));
+                style::accessible_name(ui, &r, format!("delete orbit #{}", seed.id));
+                if r.clicked() {
+                    out.push(Command::RemoveOrbit(seed.id));
+                }
+            });
+        });
+        let detail = match orbit {
+            Some(o) => summary_text(&scenario.spec.variables, o),
+            None if busy => "computing…".to_owned(),
+            None => "no orbit from here: the rates are undefined at this start".to_owned(),
+        };
+        ui.horizontal(|ui| {
+            ui.add_space(26.0);
+            ui.add(egui::Label::new(RichText::new(detail).weak()).wrap());
+        });
+        ui.add_space(2.0);
+    }
+}

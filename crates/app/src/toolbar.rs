@@ -1,0 +1,165 @@
+//! The bar across the top: the model, undo/redo, the view, and which panels are open.
+
+use egui::{Button, RichText, Ui};
+use quarry_core::library::BUILTINS;
+
+use crate::command::{Command, PanelKind};
+use crate::scenario::Scenario;
+
+/// Which panels are open.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct OpenPanels {
+    /// The model editor.
+    pub editor: bool,
+    /// The equilibria table.
+    pub equilibria: bool,
+    /// The cautions.
+    pub cautions: bool,
+    /// The help.
+    pub help: bool,
+}
+
+impl Default for OpenPanels {
+    fn default() -> Self {
+        Self {
+            editor: false,
+            equilibria: true,
+            cautions: false,
+            help: false,
+        }
+    }
+}
+
+impl OpenPanels {
+    /// Whether a panel is open.
+    pub fn is_open(&self, kind: PanelKind) -> bool {
+        match kind {
+            PanelKind::Editor => self.editor,
+            PanelKind::Equilibria => self.equilibria,
+            PanelKind::Cautions => self.cautions,
+            PanelKind::Help => self.help,
+        }
+    }
+
+    /// Opens or closes a panel.
+    pub fn set(&mut self, kind: PanelKind, open: bool) {
+        match kind {
+            PanelKind::Editor => self.editor = open,
+            PanelKind::Equilibria => self.equilibria = open,
+            PanelKind::Cautions => self.cautions = open,
+            PanelKind::Help => self.help = open,
+        }
+    }
+}
+
+/// What the toolbar needs to know besides the scenario.
+#[derive(Clone, Copy, Debug)]
+pub struct ToolbarState {
+    /// Whether undo has something to do.
+    pub can_undo: bool,
+    /// Whether redo has something to do.
+    pub can_redo: bool,
+    /// The plot's visible bounds, for "use view as window".
+    pub view: Option<[f64; 4]>,
+    /// Which panels are open.
+    pub panels: OpenPanels,
+}
+
+/// The top bar.
+#[derive(Debug, Default)]
+pub struct Toolbar;
+
+impl Toolbar {
+    /// Draws the bar.
+    pub fn ui(
+        &mut self,
+        ui: &mut Ui,
+        scenario: &Scenario,
+        state: ToolbarState,
+        out: &mut Vec<Command>,
+    ) {
+        ui.horizontal(|ui| {
+            ui.label(RichText::new("Quarry").strong().size(16.0));
+            ui.separator();
+            let l = ui.label("Model");
+            let combo = egui::ComboBox::from_id_salt("toolbar-library")
+                .selected_text(scenario.spec.name.as_str())
+                .width(170.0)
+                .show_ui(ui, |ui| {
+                    for (i, b) in BUILTINS.iter().enumerate() {
+                        if ui
+                            .selectable_label(scenario.spec.name == b.key, b.key)
+                            .on_hover_text(b.summary)
+                            .clicked()
+                        {
+                            out.push(Command::LoadBuiltin(i));
+                        }
+                    }
+                });
+            combo.response.labelled_by(l.id);
+            ui.separator();
+            if ui
+                .add_enabled(state.can_undo, Button::new("Undo"))
+                .on_hover_text("Ctrl+Z")
+                .clicked()
+            {
+                out.push(Command::Undo);
+            }
+            if ui
+                .add_enabled(state.can_redo, Button::new("Redo"))
+                .on_hover_text("Ctrl+Shift+Z")
+                .clicked()
+            {
+                out.push(Command::Redo);
+            }
+            ui.separator();
+            if ui
+                .button("Reset view")
+                .on_hover_text("Show the model's whole window (Home)")
+                .clicked()
+            {
+                out.push(Command::ResetView);
+            }
+            if ui
+                .add_enabled(state.view.is_some(), Button::new("Use view as window"))
+                .on_hover_text("Recompute the field, curves and equilibria over what you see")
+                .clicked()
+                && let Some(v) = state.view
+            {
+                out.push(Command::UseViewAsWindow(v));
+            }
+            ui.separator();
+            for (kind, text, hint) in [
+                (
+                    PanelKind::Editor,
+                    "Edit model",
+                    "Formulas, names, parameters (E)",
+                ),
+                (
+                    PanelKind::Equilibria,
+                    "Equilibria",
+                    "The table under the plane",
+                ),
+                (
+                    PanelKind::Cautions,
+                    "About the models",
+                    "What these pictures are and are not",
+                ),
+                (
+                    PanelKind::Help,
+                    "Help",
+                    "How to use the plane, and shortcuts (F1)",
+                ),
+            ] {
+                let open = state.panels.is_open(kind);
+                if ui
+                    .selectable_label(open, text)
+                    .on_hover_text(hint)
+                    .clicked()
+                {
+                    out.push(Command::ShowPanel(kind, !open));
+                }
+            }
+        });
+    }
+}

@@ -1,0 +1,214 @@
+//! The app driven the way a person drives it: by labels, clicks and keys, with no display.
+
+use egui::{Event, Modifiers, PointerButton, Pos2, Vec2};
+use egui_kittest::Harness;
+use egui_kittest::kittest::Queryable;
+use quarry_app::QuarryApp;
+use quarry_app::command::PanelKind;
+use quarry_core::library::default_model;
+
+fn harness(app: QuarryApp) -> Harness<'static, QuarryApp> {
+    let mut h = Harness::builder()
+        .with_size(Vec2::new(1280.0, 800.0))
+        .build_ui_state(|ui, app: &mut QuarryApp| app.frame_ui(ui), app);
+    h.run();
+    h
+}
+
+fn lotka_volterra() -> Harness<'static, QuarryApp> {
+    harness(QuarryApp::new_synchronous(default_model()))
+}
+
+/// The equilibrium with both species present, from the scene on screen.
+fn coexistence(h: &Harness<'_, QuarryApp>) -> [f64; 2] {
+    let scene = h.state().scene().expect("a scene is shown");
+    let e = scene
+        .equilibria
+        .iter()
+        .find(|e| e.x > 1e-6 && e.y > 1e-6)
+        .expect("a coexistence equilibrium");
+    [e.x, e.y]
+}
+
+fn click_at(h: &mut Harness<'_, QuarryApp>, pos: Pos2) {
+    h.event(Event::PointerMoved(pos));
+    h.run();
+    for pressed in [true, false] {
+        h.event(Event::PointerButton {
+            pos,
+            button: PointerButton::Primary,
+            pressed,
+            modifiers: Modifiers::NONE,
+        });
+        h.run();
+    }
+}
+
+#[test]
+fn the_first_scene_shows_the_coexistence_equilibrium_at_its_closed_form_place() {
+    let h = lotka_volterra();
+    // Lotka–Volterra: x* = c/γ = 1.5/0.075 = 20, y* = a/α = 1/0.1 = 10.
+    let [x, y] = coexistence(&h);
+    assert!(
+        (x - 20.0).abs() < 1e-9 && (y - 10.0).abs() < 1e-9,
+        "{x}, {y}"
+    );
+    assert!(h.state().title().starts_with("Quarry"));
+    assert!(h.state().title().contains("Lotka–Volterra"));
+}
+
+#[test]
+fn a_click_on_the_plane_adds_an_orbit_there() {
+    let mut h = lotka_volterra();
+    let rect = h.state().plane_rect().expect("the plane was drawn");
+    click_at(&mut h, rect.center() + Vec2::new(-60.0, 40.0));
+    let seeds = &h.state().scenario().seeds;
+    assert_eq!(seeds.len(), 1);
+    let scene = h.state().scene().expect("a scene is shown");
+    assert_eq!(scene.orbits.len(), 1);
+    let orbit = &scene.orbits[0];
+    assert_eq!(orbit.seed, seeds[0].at);
+    // Lotka–Volterra orbits are closed; the list says so with the period.
+    assert!(orbit.summary.closed);
+    h.get_by_label_contains("closed · period");
+}
+
+#[test]
+fn dragging_the_c_slider_moves_the_equilibrium_to_c_over_gamma() {
+    let mut h = lotka_volterra();
+    h.get_by_label("c").set_value_accesskit(2.25);
+    h.run();
+    // x* = c/γ = 2.25/0.075 = 30; y* = a/α = 10 does not move.
+    let [x, y] = coexistence(&h);
+    assert!(
+        (x - 30.0).abs() < 1e-9 && (y - 10.0).abs() < 1e-9,
+        "{x}, {y}"
+    );
+}
+
+#[test]
+fn typing_a_value_for_alpha_moves_the_equilibrium_to_a_over_alpha() {
+    let mut h = lotka_volterra();
+    h.get_by_label("alpha value").set_value_accesskit(0.25);
+    h.run();
+    // y* = a/α = 1/0.25 = 4; x* = c/γ = 20 does not move.
+    let [x, y] = coexistence(&h);
+    assert!(
+        (x - 20.0).abs() < 1e-9 && (y - 4.0).abs() < 1e-9,
+        "{x}, {y}"
+    );
+}
+
+#[test]
+fn a_bad_formula_shows_its_error_and_the_last_model_keeps_drawing() {
+    let mut h = lotka_volterra();
+    h.get_by_label("Edit model").click();
+    h.run();
+    let field = h.get_by_label("dx/dt =");
+    field.focus();
+    h.run();
+    h.get_by_label("dx/dt =").type_text(" *)");
+    h.run();
+    let err = h.state().editor_error().expect("the editor shows an error");
+    assert!(err.to_string().contains("column"), "{err}");
+    h.get_by_label_contains("column");
+    h.get_by_label_contains("Not applied");
+    // The plane still draws the model that worked.
+    assert_eq!(h.state().scenario().spec, default_model());
+    let [x, y] = coexistence(&h);
+    assert!((x - 20.0).abs() < 1e-9 && (y - 10.0).abs() < 1e-9);
+    assert!(!h.state().scene().expect("scene").nullclines.is_empty());
+}
+
+#[test]
+fn a_good_edit_in_the_editor_redraws_the_plane() {
+    let mut app = QuarryApp::new_synchronous(default_model());
+    app.show_panel(PanelKind::Editor, true);
+    let mut h = harness(app);
+    h.get_by_label("dy/dt =").focus();
+    h.run();
+    // −c·y + γ·x·y − 0.75·y: the predator's equilibrium prey level moves to (c + 0.75)/γ = 30.
+    h.get_by_label("dy/dt =").type_text(" - 0.75*y");
+    h.run();
+    assert!(h.state().editor_error().is_none());
+    let [x, _] = coexistence(&h);
+    assert!((x - 30.0).abs() < 1e-9, "{x}");
+}
+
+#[test]
+fn undo_restores_the_state_before_the_last_change_and_redo_repeats_it() {
+    let mut h = lotka_volterra();
+    h.get_by_label("c").set_value_accesskit(2.25);
+    h.run();
+    let rect = h.state().plane_rect().expect("the plane was drawn");
+    click_at(&mut h, rect.center());
+    assert_eq!(h.state().scenario().seeds.len(), 1);
+
+    // Ctrl+Z takes the orbit away, then the Undo button puts c back.
+    h.key_press_modifiers(Modifiers::COMMAND, egui::Key::Z);
+    h.run();
+    assert!(h.state().scenario().seeds.is_empty());
+    h.get_by_label("Undo").click();
+    h.run();
+    assert_eq!(h.state().scenario().spec, default_model());
+    let [x, _] = coexistence(&h);
+    assert!((x - 20.0).abs() < 1e-9, "{x}");
+
+    // Ctrl+Shift+Z redoes the slider change.
+    h.key_press_modifiers(Modifiers::COMMAND | Modifiers::SHIFT, egui::Key::Z);
+    h.run();
+    let [x, _] = coexistence(&h);
+    assert!((x - 30.0).abs() < 1e-9, "{x}");
+}
+
+#[test]
+fn loading_a_built_in_model_from_the_editor_replaces_the_model() {
+    let mut app = QuarryApp::new_synchronous(default_model());
+    app.show_panel(PanelKind::Editor, true);
+    let mut h = harness(app);
+    h.get_by_label("Load").click();
+    h.run();
+    assert_eq!(
+        h.state().scenario().spec.name,
+        "Lotka–Volterra predator–prey"
+    );
+    // Unknown input from the command line falls back to the default model with a notice.
+    let mut bad = default_model();
+    bad.rates[0] = "x +".into();
+    let h = harness(QuarryApp::new_synchronous(bad));
+    assert_eq!(h.state().scenario().spec, default_model());
+    h.get_by_label_contains("opened Lotka–Volterra predator–prey instead");
+}
+
+#[test]
+fn the_help_lists_the_shortcuts_and_the_cautions_say_what_the_models_are_not() {
+    let mut h = lotka_volterra();
+    h.get_by_label("Help").click();
+    h.run();
+    h.get_by_label("Ctrl+Z");
+    h.get_by_label_contains("read more").click();
+    h.run();
+    h.get_by_label_contains("not a stock assessment");
+    h.get_by_label_contains("licensed scientific advice");
+}
+
+#[test]
+fn the_first_integral_layer_is_off_limits_for_a_model_without_one() {
+    let spec = quarry_core::library::builtin("holling-ii")
+        .expect("built-in")
+        .spec();
+    let h = harness(QuarryApp::new_synchronous(spec));
+    let scene = h.state().scene().expect("scene");
+    assert!(scene.contours.is_empty());
+    assert!(!scene.equilibria.is_empty());
+}
+
+#[test]
+fn every_symbol_the_app_draws_has_a_glyph() {
+    // The harness panics on a missing glyph; the app itself would draw a box.
+    let mut h = Harness::new_ui(|ui| {
+        ui.label("… · — ± − ∞ ↺ 🗙 ° ×");
+        ui.label(egui::RichText::new("… · — ± − ∞ ^").monospace());
+    });
+    h.run();
+}
