@@ -1,7 +1,7 @@
 //! Dormand–Prince 8(5,3) as in Hairer's DOP853, with its 7th-order continuous extension.
 //!
 //! Coefficients: every number below is taken from scipy's
-//! `scipy/integrate/_ivp/dop853_coefficients.py` (a transcription of Hairer's `dop853.f`),
+//! `scipy/integrate/_ivp/dop853_coefficients.py` (taken from Hairer's `dop853.f`),
 //! printed by Python as the shortest decimal that round-trips to the same `f64`. Only the
 //! non-zero entries are stored, each row with the stage indices it multiplies. Stage 13 (index
 //! 12) is `f(t + h, y_new)` (FSAL); stages 14–16 (indices 13–15) exist only for the dense output.
