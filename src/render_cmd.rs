@@ -156,32 +156,6 @@ pub fn run(args: &RenderArgs) -> Result<(), Failure> {
         Format::Png => quarry_figure::render_png(&scene, &opts)
             .map_err(|e| Failure::Io(format!("rendering PNG: {e}")))?,
     };
-    write_atomically(&args.out, &bytes)
-}
-
-/// Writes a file through a temporary sibling and a rename, so a failure never leaves a
-/// half-written figure behind.
-fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), Failure> {
-    use std::io::Write;
-    let dir = path
-        .parent()
-        .filter(|p| !p.as_os_str().is_empty())
-        .unwrap_or(Path::new("."));
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_default();
-    let tmp = dir.join(format!(".{name}.tmp-{}", std::process::id()));
-    let io = |e: std::io::Error| Failure::Io(format!("writing {}: {e}", path.display()));
-    let mut file = std::fs::File::create(&tmp).map_err(io)?;
-    file.write_all(bytes)
-        .and_then(|()| file.sync_all())
-        .map_err(|e| {
-            let _ = std::fs::remove_file(&tmp);
-            io(e)
-        })?;
-    std::fs::rename(&tmp, path).map_err(|e| {
-        let _ = std::fs::remove_file(&tmp);
-        io(e)
-    })
+    quarry_core::scenario::write_atomically(&args.out, &bytes)
+        .map_err(|e| Failure::Io(e.to_string()))
 }
