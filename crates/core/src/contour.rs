@@ -235,16 +235,7 @@ mod tests {
     /// of H's terms (about 10 in size) adds ~1e-15. 1e-11 leaves a wide margin.
     const LEVEL_ATOL: f64 = 1e-11;
 
-    fn distance_to_segment(p: Point, a: Point, b: Point) -> f64 {
-        let (ux, uy) = (b[0] - a[0], b[1] - a[1]);
-        let len2 = ux * ux + uy * uy;
-        let t = if len2 > 0.0 {
-            (((p[0] - a[0]) * ux + (p[1] - a[1]) * uy) / len2).clamp(0.0, 1.0)
-        } else {
-            0.0
-        };
-        (p[0] - a[0] - t * ux).hypot(p[1] - a[1] - t * uy)
-    }
+    use crate::test_support::distance_to_segment;
 
     fn distance_to_polyline(p: Point, line: &Polyline) -> f64 {
         let n = line.points.len();

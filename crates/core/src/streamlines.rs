@@ -531,16 +531,7 @@ mod tests {
             .collect()
     }
 
-    fn distance_to_segment(p: Point, a: Point, b: Point) -> f64 {
-        let (ux, uy) = (b[0] - a[0], b[1] - a[1]);
-        let len2 = ux * ux + uy * uy;
-        let t = if len2 > 0.0 {
-            (((p[0] - a[0]) * ux + (p[1] - a[1]) * uy) / len2).clamp(0.0, 1.0)
-        } else {
-            0.0
-        };
-        (p[0] - a[0] - t * ux).hypot(p[1] - a[1] - t * uy)
-    }
+    use crate::test_support::distance_to_segment;
 
     /// Smallest distance from a vertex of one line to a segment of another, brute force.
     fn closest_approach(lines: &[Vec<Point>]) -> f64 {

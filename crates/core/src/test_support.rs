@@ -2,6 +2,7 @@
 
 use crate::library;
 use crate::model::{Model, ModelSpec, Parameter, Window};
+use crate::scene::Point;
 
 /// A built-in model with its default parameters.
 pub(crate) fn builtin(key: &str) -> Model {
@@ -30,4 +31,16 @@ pub(crate) fn model(
         },
     };
     Model::new(&spec).expect("model compiles")
+}
+
+/// Distance from `p` to the segment from `a` to `b`.
+pub(crate) fn distance_to_segment(p: Point, a: Point, b: Point) -> f64 {
+    let (ux, uy) = (b[0] - a[0], b[1] - a[1]);
+    let len2 = ux * ux + uy * uy;
+    let t = if len2 > 0.0 {
+        (((p[0] - a[0]) * ux + (p[1] - a[1]) * uy) / len2).clamp(0.0, 1.0)
+    } else {
+        0.0
+    };
+    (p[0] - a[0] - t * ux).hypot(p[1] - a[1] - t * uy)
 }

@@ -1104,17 +1104,8 @@ mod tests {
             let n = ops.len();
             let mut pick = || (n - 1 - rng.below(n.min(6))) as Slot;
             let (a, b) = (pick(), pick());
-            let funcs = [
-                Func::Exp,
-                Func::Ln,
-                Func::Log10,
-                Func::Sqrt,
-                Func::Abs,
-                Func::Sin,
-                Func::Cos,
-                Func::Tan,
-                Func::Sign,
-            ];
+            // Every parseable function plus the internal sign.
+            let funcs: Vec<Func> = Func::PARSEABLE.into_iter().chain([Func::Sign]).collect();
             let op = match rng.below(14) {
                 0 => Op::Const(rng.input()),
                 1 => Op::Input(rng.below(n_inputs as usize) as u32),
