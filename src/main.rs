@@ -95,7 +95,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
                     .map_err(|e| Failure::Usage(format!("{}: {e}", path.display())))?,
                 None => quarry_core::scenario::default_scenario(),
             };
-            quarry_app::run(scenario.model_spec()).map_err(|e| {
+            quarry_app::run(scenario, cli.file.clone()).map_err(|e| {
                 Failure::Io(format!(
                     "{e}. The headless subcommands (analyze, orbit, render, check) need no display: see `quarry --help`."
                 ))

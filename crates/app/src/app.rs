@@ -1,33 +1,42 @@
 //! The app: the scenario, its caches, the panels, and the loop that applies their commands.
 
+use std::path::{Path, PathBuf};
+use std::time::Instant;
+
 use egui::{Key, KeyboardShortcut, Modifiers, Panel, Ui};
 use quarry_core::library::{BUILTINS, default_model};
 use quarry_core::model::{Model, ModelError, ModelSpec, Window};
+use quarry_core::scenario::{Scenario as ScenarioFile, default_scenario};
 use quarry_core::scene::{Scene, TimeDirection};
 
 use crate::cautions::CautionsPanel;
 use crate::command::{Command, PanelKind};
+use crate::document::{Document, RecentFiles, Recovery, find_recovery, state_dir};
 use crate::editor::ModelEditor;
 use crate::equilibria::EquilibriaPanel;
+use crate::files::{FileAction, FileWindow, FileWindowOutcome, GuardAnswer, Pending};
 use crate::help::HelpPanel;
 use crate::history::History;
 use crate::layers::LayersPanel;
 use crate::orbits::OrbitsPanel;
 use crate::params::ParamsPanel;
 use crate::plane::PlanePanel;
-use crate::scenario::Scenario;
+use crate::scenario::{LayerSwitch, Scenario};
 use crate::status::{StatusBar, StatusState};
 use crate::toolbar::{OpenPanels, Toolbar, ToolbarState};
 use crate::worker::SceneSource;
 
-/// The window title for a scenario.
-pub fn title_for(spec: &ModelSpec) -> String {
+/// The window title: the scenario's title, its file, and whether it has unsaved changes.
+pub fn title_for(spec: &ModelSpec, file: Option<&str>, dirty: bool) -> String {
     let name = spec.name.trim();
-    if name.is_empty() {
-        "Quarry — untitled model".to_owned()
+    let name = if name.is_empty() {
+        "untitled model"
     } else {
-        format!("Quarry — {name}")
-    }
+        name
+    };
+    let file = file.unwrap_or("not saved to a file");
+    let mark = if dirty { " — unsaved changes" } else { "" };
+    format!("Quarry — {name} ({file}){mark}")
 }
 
 /// The whole app.
@@ -52,35 +61,84 @@ pub struct QuarryApp {
     status: StatusBar,
     /// The title last sent to the window.
     title: String,
-    /// A problem met at start-up, shown in the status bar.
+    /// A problem met at start-up, or the outcome of the last file operation, shown in the
+    /// status bar.
     notice: Option<String>,
+    /// The scenario's file and save state.
+    document: Document,
+    recent: RecentFiles,
+    /// The open or save-as window, when shown.
+    file_window: Option<FileWindow>,
+    /// An action waiting for the answer to "unsaved changes?".
+    pending: Option<Pending>,
+    /// An action to carry out once the save-as window has saved.
+    after_save: Option<Pending>,
+    /// Recovered work offered at start-up.
+    recovery: Option<Recovery>,
+    /// Whether "Browse…" may start the system's file dialog (not in tests).
+    native_dialogs: bool,
+    /// Set once the user has agreed to close.
+    closing: bool,
 }
 
 impl QuarryApp {
-    /// The app on `spec`, computing scenes on a background thread that repaints `ctx`.
-    pub fn new(spec: ModelSpec, ctx: &egui::Context) -> Self {
+    /// The app on a scenario read from `path` (or the built-in one), computing scenes on a
+    /// background thread that repaints `ctx`, with autosave and the recovery offer.
+    pub fn new(file: ScenarioFile, path: Option<PathBuf>, ctx: &egui::Context) -> Self {
         ctx.set_theme(egui::Theme::Light);
-        Self::with_source(spec, SceneSource::background(ctx.clone()))
+        let dir = state_dir();
+        let mut app = Self::with_source(
+            Scenario::from_file(&file),
+            path,
+            SceneSource::background(ctx.clone()),
+            dir,
+        );
+        app.native_dialogs = true;
+        app
     }
 
-    /// The app on `spec`, computing each scene before the frame ends (for tests).
+    /// The app on `spec`, computing each scene before the frame ends (for tests); no
+    /// autosave, no native dialogs.
     pub fn new_synchronous(spec: ModelSpec) -> Self {
-        Self::with_source(spec, SceneSource::synchronous())
+        Self::with_source(Scenario::new(spec), None, SceneSource::synchronous(), None)
     }
 
-    fn with_source(spec: ModelSpec, scenes: SceneSource) -> Self {
-        let (spec, model, notice) = match Model::new(&spec) {
-            Ok(model) => (spec, model, None),
+    /// The app on a scenario file, synchronous like [`Self::new_synchronous`], keeping its
+    /// state (recent files, recovery files) in `state_dir` when given.
+    pub fn from_file_synchronous(
+        file: &ScenarioFile,
+        path: Option<PathBuf>,
+        state_dir: Option<PathBuf>,
+    ) -> Self {
+        Self::with_source(
+            Scenario::from_file(file),
+            path,
+            SceneSource::synchronous(),
+            state_dir,
+        )
+    }
+
+    fn with_source(
+        scenario: Scenario,
+        path: Option<PathBuf>,
+        scenes: SceneSource,
+        state_dir: Option<PathBuf>,
+    ) -> Self {
+        let (scenario, model, notice) = match Model::new(&scenario.spec) {
+            Ok(model) => (scenario, model, None),
             Err(e) => {
                 let fallback = default_model();
                 let model = Model::new(&fallback).expect("the built-in default model compiles");
                 let notice = format!("{e}; opened {} instead", fallback.name);
-                (fallback, model, Some(notice))
+                (Scenario::new(fallback), model, Some(notice))
             }
         };
+        let recovery = state_dir.as_deref().and_then(find_recovery);
+        let recent = RecentFiles::load(state_dir.as_deref());
+        let document = Document::new(scenario.to_file(), path, state_dir);
         let mut app = Self {
-            editor: ModelEditor::new(&spec),
-            scenario: Scenario::new(spec),
+            editor: ModelEditor::new(&scenario.spec),
+            scenario,
             history: History::new(),
             model,
             scenes,
@@ -96,6 +154,14 @@ impl QuarryApp {
             status: StatusBar,
             title: String::new(),
             notice,
+            document,
+            recent,
+            file_window: None,
+            pending: None,
+            after_save: None,
+            recovery,
+            native_dialogs: false,
+            closing: false,
         };
         app.request_scene();
         app
@@ -128,7 +194,26 @@ impl QuarryApp {
 
     /// The window title.
     pub fn title(&self) -> String {
-        title_for(&self.scenario.spec)
+        title_for(
+            &self.scenario.spec,
+            self.document.file_name().as_deref(),
+            self.is_dirty(),
+        )
+    }
+
+    /// Whether the scenario has changes not saved to its file.
+    pub fn is_dirty(&self) -> bool {
+        self.document.is_dirty(&self.scenario.to_file())
+    }
+
+    /// The scenario's file, if it has one.
+    pub fn path(&self) -> Option<&Path> {
+        self.document.path.as_deref()
+    }
+
+    /// The message of the last file operation or start-up problem.
+    pub fn notice(&self) -> Option<&str> {
+        self.notice.as_deref()
     }
 
     /// Opens or closes a panel, as its toolbar button does.
@@ -147,6 +232,7 @@ impl QuarryApp {
         let busy = self.scenes.is_busy();
 
         let toolbar_state = ToolbarState {
+            recent: &self.recent.paths,
             can_undo: self.history.can_undo(),
             can_redo: self.history.can_redo(),
             view: self.plane.view,
@@ -236,14 +322,236 @@ impl QuarryApp {
             out.push(Command::ShowPanel(PanelKind::Help, open));
         }
 
+        self.files_ui(&ctx, &mut out);
+        let dropped: Vec<PathBuf> = ctx.input(|i| {
+            i.raw
+                .dropped_files
+                .iter()
+                .map(|f| f.path().to_owned())
+                .filter(|p| !p.as_os_str().is_empty())
+                .collect()
+        });
+        if let Some(path) = dropped.into_iter().next() {
+            out.push(Command::Open(path));
+        }
+        if ctx.input(|i| i.viewport().close_requested()) && !self.closing && self.is_dirty() {
+            ctx.send_viewport_cmd(egui::ViewportCommand::CancelClose);
+            self.pending = Some(Pending::Quit);
+        }
+
         for command in out {
             self.apply(command);
         }
+        if self.closing {
+            ctx.send_viewport_cmd(egui::ViewportCommand::Close);
+        }
         self.request_scene();
+        if let Some(wait) = self
+            .document
+            .autosave(&self.scenario.to_file(), Instant::now())
+        {
+            ctx.request_repaint_after(wait);
+        }
         let title = self.title();
         if title != self.title {
             ctx.send_viewport_cmd(egui::ViewportCommand::Title(title.clone()));
             self.title = title;
+        }
+    }
+
+    /// The file window, the unsaved-changes question and the recovery offer.
+    fn files_ui(&mut self, ctx: &egui::Context, out: &mut Vec<Command>) {
+        if let Some(recovery) = &self.recovery {
+            match crate::files::recovery_ui(ctx, recovery) {
+                Some(true) => self.restore_recovery(),
+                Some(false) => {
+                    let _ = std::fs::remove_file(&recovery.file);
+                    self.recovery = None;
+                }
+                None => {}
+            }
+            return;
+        }
+        if let Some(pending) = &self.pending {
+            let file = self.document.file_name();
+            match crate::files::guard_ui(ctx, pending, file.as_deref()) {
+                Some(GuardAnswer::Save) => {
+                    let pending = self.pending.take();
+                    match self.document.path.clone() {
+                        Some(path) => {
+                            if self.save_to(&path) {
+                                self.carry_out(pending);
+                            }
+                        }
+                        None => {
+                            self.after_save = pending;
+                            self.open_file_window(FileAction::SaveAs);
+                        }
+                    }
+                }
+                Some(GuardAnswer::Discard) => {
+                    let pending = self.pending.take();
+                    self.carry_out(pending);
+                }
+                Some(GuardAnswer::Cancel) => self.pending = None,
+                None => {}
+            }
+            return;
+        }
+        let Some(window) = &mut self.file_window else {
+            return;
+        };
+        let title = match window.action {
+            FileAction::Open => "Open a scenario",
+            FileAction::SaveAs => "Save the scenario as",
+        };
+        let start_dir = self
+            .document
+            .path
+            .as_deref()
+            .and_then(Path::parent)
+            .map(Path::to_owned);
+        let mut outcome = FileWindowOutcome::Open;
+        let mut open = true;
+        egui::Window::new(title)
+            .collapsible(false)
+            .resizable(false)
+            .open(&mut open)
+            .show(ctx, |ui| {
+                outcome = window.ui(ui, &self.recent.paths, self.native_dialogs, start_dir);
+            });
+        match outcome {
+            FileWindowOutcome::Confirm(c) => out.push(c),
+            FileWindowOutcome::Cancel => {
+                self.file_window = None;
+                self.after_save = None;
+            }
+            FileWindowOutcome::Open if !open => {
+                self.file_window = None;
+                self.after_save = None;
+            }
+            FileWindowOutcome::Open => {}
+        }
+    }
+
+    fn open_file_window(&mut self, action: FileAction) {
+        let path = match action {
+            FileAction::Open => None,
+            FileAction::SaveAs => self.document.path.clone(),
+        };
+        self.file_window = Some(FileWindow::new(action, path.as_deref()));
+    }
+
+    /// Does what was waiting on the unsaved-changes question.
+    fn carry_out(&mut self, pending: Option<Pending>) {
+        match pending {
+            Some(Pending::New) => self.start_new(),
+            Some(Pending::Open(path)) => self.open_now(&path),
+            Some(Pending::Quit) => {
+                self.document.discard_recovery();
+                self.closing = true;
+            }
+            None => {}
+        }
+    }
+
+    /// Replaces the scenario with a fresh one, forgetting undo history and the view.
+    fn install(&mut self, scenario: Scenario, model: Model, path: Option<PathBuf>) {
+        self.document.reset(scenario.to_file(), path);
+        self.scenario = scenario;
+        self.model = model;
+        self.history = History::new();
+        self.editor.reset_to(&self.scenario.spec);
+        self.plane.reset_view();
+    }
+
+    fn start_new(&mut self) {
+        let file = default_scenario();
+        let scenario = Scenario::from_file(&file);
+        let Ok(model) = Model::new(&scenario.spec) else {
+            return;
+        };
+        self.install(scenario, model, None);
+        self.notice = None;
+    }
+
+    /// Opens a file now; on failure the current scenario stays and the message is shown
+    /// (in the file window when it is up, else in the status bar).
+    fn open_now(&mut self, path: &Path) {
+        let result = std::fs::read_to_string(path)
+            .map_err(|e| e.to_string())
+            .and_then(|text| Scenario::from_ron(&text).map_err(|e| e.to_string()));
+        match result {
+            Ok((scenario, model)) => {
+                self.install(scenario, model, Some(path.to_owned()));
+                self.recent.add(path);
+                self.file_window = None;
+                self.notice = None;
+            }
+            Err(e) => {
+                let message = format!("{}: {e}", path.display());
+                match &mut self.file_window {
+                    Some(w) => w.error = Some(message),
+                    None => self.notice = Some(message),
+                }
+            }
+        }
+    }
+
+    /// Saves to `path`; reports a failure where the user will see it.
+    fn save_to(&mut self, path: &Path) -> bool {
+        match self.document.save(&self.scenario.to_file(), path) {
+            Ok(()) => {
+                self.recent.add(path);
+                self.file_window = None;
+                self.notice = Some(format!("Saved {}", path.display()));
+                true
+            }
+            Err(e) => {
+                let message = format!("Could not save: {e}");
+                match &mut self.file_window {
+                    Some(w) => w.error = Some(message),
+                    None => self.notice = Some(message),
+                }
+                false
+            }
+        }
+    }
+
+    fn restore_recovery(&mut self) {
+        let Some(recovery) = self.recovery.take() else {
+            return;
+        };
+        match Scenario::from_ron(&recovery.text) {
+            Ok((scenario, model)) => {
+                let saved = recovery
+                    .origin
+                    .as_deref()
+                    .and_then(|p| ScenarioFile::load(p).ok());
+                self.install(scenario, model, recovery.origin.clone());
+                // Unsaved changes count against the file as it is on disk.
+                if let Some(saved) = saved {
+                    self.document.reset(saved, recovery.origin.clone());
+                }
+                self.document.mark_dirty();
+                self.notice = Some("Restored unsaved work; save it to keep it.".to_owned());
+                let _ = std::fs::remove_file(&recovery.file);
+            }
+            Err(e) => {
+                self.notice = Some(format!(
+                    "The recovery file {} could not be read: {e}",
+                    recovery.file.display()
+                ));
+            }
+        }
+    }
+
+    /// Runs an action that would drop unsaved changes, asking first when there are some.
+    fn guarded(&mut self, action: Pending) {
+        if self.is_dirty() {
+            self.pending = Some(action);
+        } else {
+            self.carry_out(Some(action));
         }
     }
 
@@ -254,7 +562,22 @@ impl QuarryApp {
         let redo_shift = KeyboardShortcut::new(Modifiers::COMMAND | Modifiers::SHIFT, Key::Z);
         let redo_y = KeyboardShortcut::new(Modifiers::COMMAND, Key::Y);
         let undo = KeyboardShortcut::new(Modifiers::COMMAND, Key::Z);
+        let save_as = KeyboardShortcut::new(Modifiers::COMMAND | Modifiers::SHIFT, Key::S);
+        let save = KeyboardShortcut::new(Modifiers::COMMAND, Key::S);
+        let open = KeyboardShortcut::new(Modifiers::COMMAND, Key::O);
+        let new = KeyboardShortcut::new(Modifiers::COMMAND, Key::N);
         ctx.input_mut(|i| {
+            if i.consume_shortcut(&save_as) {
+                out.push(Command::ShowFileWindow(FileAction::SaveAs));
+            } else if i.consume_shortcut(&save) {
+                out.push(Command::Save);
+            }
+            if i.consume_shortcut(&open) {
+                out.push(Command::ShowFileWindow(FileAction::Open));
+            }
+            if i.consume_shortcut(&new) {
+                out.push(Command::New);
+            }
             if i.consume_shortcut(&redo_shift) || i.consume_shortcut(&redo_y) {
                 out.push(Command::Redo);
             } else if i.consume_shortcut(&undo) {
@@ -312,6 +635,19 @@ impl QuarryApp {
             Command::SetLayer(layer, on) => self.scenario.layers.set(layer, on),
             Command::ResetView => self.plane.reset_view(),
             Command::ShowPanel(kind, open) => self.panels.set(kind, open),
+            Command::New => self.guarded(Pending::New),
+            Command::Open(path) => self.guarded(Pending::Open(path)),
+            Command::Save => match self.document.path.clone() {
+                Some(path) => {
+                    self.save_to(&path);
+                }
+                None => self.open_file_window(FileAction::SaveAs),
+            },
+            Command::SaveAs(path) if self.save_to(&path) => {
+                let next = self.after_save.take();
+                self.carry_out(next);
+            }
+            Command::ShowFileWindow(action) => self.open_file_window(action),
             _ => {}
         }
     }
@@ -469,5 +805,14 @@ impl QuarryApp {
 impl eframe::App for QuarryApp {
     fn ui(&mut self, ui: &mut Ui, _frame: &mut eframe::Frame) {
         self.frame_ui(ui);
+    }
+
+    fn on_exit(&mut self, _gl: Option<&eframe::glow::Context>) {
+        // A clean exit after the user chose to close: nothing to recover. Should the user
+        // close over unsaved changes some other way (the guard normally prevents it), the
+        // recovery file stays and is offered next time.
+        if !self.is_dirty() || self.closing {
+            self.document.discard_recovery();
+        }
     }
 }

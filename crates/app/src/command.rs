@@ -4,9 +4,12 @@
 //! applies them after the pass. That keeps one frame's picture consistent, gives undo/redo one
 //! place to record from, and lets tests drive the app with the same commands a click makes.
 
+use std::path::PathBuf;
+
 use quarry_core::model::ModelSpec;
 use quarry_core::scene::TimeDirection;
 
+use crate::files::FileAction;
 use crate::scenario::Layer;
 
 /// A change asked for by the UI.
@@ -67,6 +70,16 @@ pub enum Command {
     ResetView,
     /// Open or close a panel.
     ShowPanel(PanelKind, bool),
+    /// Start a new scenario on the default model (asks first over unsaved changes).
+    New,
+    /// Open a scenario file (asks first over unsaved changes).
+    Open(PathBuf),
+    /// Save to the scenario's file, or ask for one if it has none.
+    Save,
+    /// Save to a new file, which becomes the scenario's file.
+    SaveAs(PathBuf),
+    /// Show the file window to open or save as.
+    ShowFileWindow(FileAction),
 }
 
 /// Panels that can be opened and closed.

@@ -4,6 +4,10 @@ use egui::{RichText, Ui};
 
 /// Every shortcut: keys, what they do. Shortcuts act while no text field has the keyboard.
 pub const SHORTCUTS: &[(&str, &str)] = &[
+    ("Ctrl+N", "New scenario (asks first over unsaved changes)"),
+    ("Ctrl+O", "Open a scenario file (or drop one on the window)"),
+    ("Ctrl+S", "Save the scenario to its file"),
+    ("Ctrl+Shift+S", "Save the scenario as a new file"),
     ("Ctrl+Z", "Undo a model, parameter or orbit change"),
     ("Ctrl+Shift+Z  or  Ctrl+Y", "Redo"),
     ("Home", "Show the model's whole window"),

@@ -3,7 +3,7 @@
 use egui::{Color32, Ui, Vec2};
 
 use crate::command::Command;
-use crate::scenario::{Layer, Scenario};
+use crate::scenario::{Layer, LayerSwitch, Scenario};
 use crate::style;
 
 /// The layer list.

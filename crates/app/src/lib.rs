@@ -8,8 +8,10 @@
 pub mod app;
 pub mod cautions;
 pub mod command;
+pub mod document;
 pub mod editor;
 pub mod equilibria;
+pub mod files;
 pub mod help;
 pub mod history;
 pub mod layers;
@@ -24,11 +26,14 @@ pub mod worker;
 
 pub use app::QuarryApp;
 
-use quarry_core::model::ModelSpec;
+use std::path::PathBuf;
 
-/// Opens the Quarry window on a model and returns when it closes. Returns a one-line message
+use quarry_core::scenario::Scenario as ScenarioFile;
+
+/// Opens the Quarry window on a scenario (read from `path`, when given) and returns when it
+/// closes. Returns a one-line message
 /// instead when no window can be opened (no display, no usable OpenGL).
-pub fn run(spec: ModelSpec) -> Result<(), String> {
+pub fn run(file: ScenarioFile, path: Option<PathBuf>) -> Result<(), String> {
     if cfg!(all(unix, not(target_os = "macos")))
         && std::env::var_os("DISPLAY").is_none()
         && std::env::var_os("WAYLAND_DISPLAY").is_none()
@@ -37,7 +42,11 @@ pub fn run(spec: ModelSpec) -> Result<(), String> {
             "no display to open the window on (neither DISPLAY nor WAYLAND_DISPLAY is set)".into(),
         );
     }
-    let title = app::title_for(&spec);
+    let file_name = path
+        .as_deref()
+        .and_then(|p| p.file_name())
+        .map(|n| n.to_string_lossy().into_owned());
+    let title = app::title_for(&file.model_spec(), file_name.as_deref(), false);
     let options = eframe::NativeOptions {
         viewport: egui::ViewportBuilder::default()
             .with_title(title)
@@ -50,7 +59,7 @@ pub fn run(spec: ModelSpec) -> Result<(), String> {
         eframe::run_native(
             "Quarry",
             options,
-            Box::new(move |cc| Ok(Box::new(QuarryApp::new(spec, &cc.egui_ctx)))),
+            Box::new(move |cc| Ok(Box::new(QuarryApp::new(file, path, &cc.egui_ctx)))),
         )
     }));
     let one_line = |s: String| s.split_whitespace().collect::<Vec<_>>().join(" ");

@@ -122,7 +122,7 @@ impl PlanePanel {
                 .allow_hover(false),
             );
             if let Some(scene) = scene {
-                if layers.show_contours {
+                if layers.contours {
                     for line in scene.contours.iter().flat_map(|c| &c.lines) {
                         pui.line(
                             Line::new("first-integral levels", closed_points(line))
@@ -132,7 +132,7 @@ impl PlanePanel {
                         );
                     }
                 }
-                if layers.show_streamlines {
+                if layers.streamlines {
                     for line in &scene.streamlines {
                         pui.line(
                             Line::new("streamlines", closed_points(line))
@@ -142,10 +142,10 @@ impl PlanePanel {
                         );
                     }
                 }
-                if layers.show_field {
+                if layers.field {
                     field_ui(pui, scene, ppu);
                 }
-                if layers.show_nullclines {
+                if layers.nullclines {
                     for n in &scene.nullclines {
                         let (name, colour) = if n.variable == 0 {
                             (format!("nullcline d{xn}/dt = 0"), style::NULLCLINE_X)
@@ -162,7 +162,7 @@ impl PlanePanel {
                         }
                     }
                 }
-                if layers.show_separatrices {
+                if layers.separatrices {
                     for s in &scene.separatrices {
                         let (name, style) = match s.kind {
                             ManifoldKind::Stable => ("separatrix (in)", LineStyle::Solid),
@@ -179,7 +179,7 @@ impl PlanePanel {
                         );
                     }
                 }
-                if layers.show_limit_cycles {
+                if layers.limit_cycles {
                     for c in &scene.limit_cycles {
                         let (name, style) = match c.stability {
                             CycleStability::Attracting => {
@@ -198,10 +198,10 @@ impl PlanePanel {
                         );
                     }
                 }
-                if layers.show_orbits {
+                if layers.orbits {
                     orbits_ui(pui, scenario, scene, ppu);
                 }
-                if layers.show_equilibria {
+                if layers.equilibria {
                     equilibria_ui(pui, scene);
                 }
             }

@@ -3,7 +3,11 @@
 //! This is the state that undo/redo snapshots and that a saved session would hold. Scenes,
 //! the compiled model and everything else rebuilt from it live elsewhere, as caches.
 
-use quarry_core::model::ModelSpec;
+use quarry_core::model::{Model, ModelSpec};
+use quarry_core::scenario::{
+    self as file, Direction, ParameterDef, Playback, SCENARIO_VERSION, Scenario as ScenarioFile,
+    ScenarioError, Variable,
+};
 use quarry_core::scene::{ContourLevels, SceneRequest, Seed, TimeDirection};
 
 /// Direction-field samples across and up.
@@ -13,7 +17,7 @@ pub const CURVE_GRID: usize = 256;
 /// How many first-integral levels to draw.
 pub const CONTOUR_COUNT: usize = 10;
 /// Default run time of an orbit, in each direction (model time units).
-pub const DEFAULT_ORBIT_TIME: f64 = 30.0;
+pub const DEFAULT_ORBIT_TIME: f64 = file::DEFAULT_ORBIT_TIME;
 
 /// How one parameter's slider behaves.
 #[derive(Clone, Debug, PartialEq)]
@@ -24,6 +28,10 @@ pub struct ParamSetting {
     pub range: Option<(f64, f64)>,
     /// Whether the slider moves on a logarithmic scale.
     pub logarithmic: bool,
+    /// Unit (free text, from the scenario file).
+    pub unit: String,
+    /// What the parameter means (free text, from the scenario file).
+    pub description: String,
 }
 
 impl ParamSetting {
@@ -33,6 +41,8 @@ impl ParamSetting {
             default: value,
             range: None,
             logarithmic: false,
+            unit: String::new(),
+            description: String::new(),
         }
     }
 
@@ -70,60 +80,27 @@ pub struct OrbitSeed {
     pub visible: bool,
 }
 
-/// Which layers of the plane are drawn.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub struct Layers {
-    /// Arrows of the direction field.
-    pub show_field: bool,
-    /// Evenly spaced streamlines.
-    pub show_streamlines: bool,
-    /// dx/dt = 0 and dy/dt = 0.
-    pub show_nullclines: bool,
-    /// Equilibrium markers.
-    pub show_equilibria: bool,
-    /// Stable and unstable manifolds of saddles.
-    pub show_separatrices: bool,
-    /// Limit cycles found near the equilibria.
-    pub show_limit_cycles: bool,
-    /// The user's orbits.
-    pub show_orbits: bool,
-    /// Level curves of the first integral (models that have one).
-    pub show_contours: bool,
-}
-
-impl Default for Layers {
-    fn default() -> Self {
-        Self {
-            show_field: true,
-            show_streamlines: false,
-            show_nullclines: true,
-            show_equilibria: true,
-            show_separatrices: true,
-            show_limit_cycles: true,
-            show_orbits: true,
-            show_contours: true,
-        }
-    }
-}
+/// Which layers of the plane are drawn: the scenario file's own setting.
+pub use quarry_core::scenario::Layers;
 
 /// One layer, for commands that toggle it.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum Layer {
-    /// [`Layers::show_field`].
+    /// The field layer.
     Field,
-    /// [`Layers::show_streamlines`].
+    /// The streamlines layer.
     Streamlines,
-    /// [`Layers::show_nullclines`].
+    /// The nullclines layer.
     Nullclines,
-    /// [`Layers::show_equilibria`].
+    /// The equilibria layer.
     Equilibria,
-    /// [`Layers::show_separatrices`].
+    /// The separatrices layer.
     Separatrices,
-    /// [`Layers::show_limit_cycles`].
+    /// The limit cycles layer.
     LimitCycles,
-    /// [`Layers::show_orbits`].
+    /// The orbits layer.
     Orbits,
-    /// [`Layers::show_contours`].
+    /// The contours layer.
     Contours,
 }
 
@@ -155,32 +132,38 @@ impl Layer {
     }
 }
 
-impl Layers {
+/// Reading and setting layers by name.
+pub trait LayerSwitch {
     /// Whether a layer is on.
-    pub fn is_on(&self, layer: Layer) -> bool {
+    fn is_on(&self, layer: Layer) -> bool;
+    /// Turns a layer on or off.
+    fn set(&mut self, layer: Layer, on: bool);
+}
+
+impl LayerSwitch for Layers {
+    fn is_on(&self, layer: Layer) -> bool {
         match layer {
-            Layer::Field => self.show_field,
-            Layer::Streamlines => self.show_streamlines,
-            Layer::Nullclines => self.show_nullclines,
-            Layer::Equilibria => self.show_equilibria,
-            Layer::Separatrices => self.show_separatrices,
-            Layer::LimitCycles => self.show_limit_cycles,
-            Layer::Orbits => self.show_orbits,
-            Layer::Contours => self.show_contours,
+            Layer::Field => self.field,
+            Layer::Streamlines => self.streamlines,
+            Layer::Nullclines => self.nullclines,
+            Layer::Equilibria => self.equilibria,
+            Layer::Separatrices => self.separatrices,
+            Layer::LimitCycles => self.limit_cycles,
+            Layer::Orbits => self.orbits,
+            Layer::Contours => self.contours,
         }
     }
 
-    /// Turns a layer on or off.
-    pub fn set(&mut self, layer: Layer, on: bool) {
+    fn set(&mut self, layer: Layer, on: bool) {
         let flag = match layer {
-            Layer::Field => &mut self.show_field,
-            Layer::Streamlines => &mut self.show_streamlines,
-            Layer::Nullclines => &mut self.show_nullclines,
-            Layer::Equilibria => &mut self.show_equilibria,
-            Layer::Separatrices => &mut self.show_separatrices,
-            Layer::LimitCycles => &mut self.show_limit_cycles,
-            Layer::Orbits => &mut self.show_orbits,
-            Layer::Contours => &mut self.show_contours,
+            Layer::Field => &mut self.field,
+            Layer::Streamlines => &mut self.streamlines,
+            Layer::Nullclines => &mut self.nullclines,
+            Layer::Equilibria => &mut self.equilibria,
+            Layer::Separatrices => &mut self.separatrices,
+            Layer::LimitCycles => &mut self.limit_cycles,
+            Layer::Orbits => &mut self.orbits,
+            Layer::Contours => &mut self.contours,
         };
         *flag = on;
     }
@@ -203,6 +186,37 @@ pub struct Scenario {
     pub orbit_time: f64,
     /// The id the next seed gets.
     pub next_seed_id: u64,
+    /// Free-text notes.
+    pub notes: String,
+    /// Units and descriptions of the two variables (their names live in `spec`).
+    pub variable_info: [VariableInfo; 2],
+    /// Playback speed and looping.
+    pub playback: Playback,
+}
+
+/// What a scenario says about a variable besides its name.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct VariableInfo {
+    /// Unit (free text).
+    pub unit: String,
+    /// What the variable is.
+    pub description: String,
+}
+
+fn to_time_direction(d: Direction) -> TimeDirection {
+    match d {
+        Direction::Forward => TimeDirection::Forward,
+        Direction::Backward => TimeDirection::Backward,
+        Direction::Both => TimeDirection::Both,
+    }
+}
+
+fn to_file_direction(d: TimeDirection) -> Direction {
+    match d {
+        TimeDirection::Forward => Direction::Forward,
+        TimeDirection::Backward => Direction::Backward,
+        TimeDirection::Both => Direction::Both,
+    }
 }
 
 impl Scenario {
@@ -221,6 +235,102 @@ impl Scenario {
             new_orbit_direction: TimeDirection::Forward,
             orbit_time: DEFAULT_ORBIT_TIME,
             next_seed_id: 1,
+            notes: String::new(),
+            variable_info: Default::default(),
+            playback: Playback::default(),
+        }
+    }
+
+    /// The app's scenario from a scenario file (already validated by reading it).
+    pub fn from_file(f: &ScenarioFile) -> Self {
+        let mut s = Self::new(f.model_spec());
+        s.params = f
+            .parameters
+            .iter()
+            .map(|p| ParamSetting {
+                default: p.value,
+                range: (p.min.is_some() || p.max.is_some()).then(|| p.range()),
+                logarithmic: p.log,
+                unit: p.unit.clone(),
+                description: p.description.clone(),
+            })
+            .collect();
+        for o in &f.orbits {
+            let id = s.add_seed([o.x, o.y]);
+            if let Some(seed) = s.seeds.iter_mut().find(|x| x.id == id) {
+                seed.direction = to_time_direction(o.direction);
+                seed.visible = !o.hidden;
+            }
+        }
+        s.layers = f.layers;
+        s.orbit_time = f.orbit_time;
+        s.notes = f.notes.clone();
+        s.variable_info = f.variables.clone().map(|v| VariableInfo {
+            unit: v.unit,
+            description: v.description,
+        });
+        s.playback = f.playback;
+        s
+    }
+
+    /// Reads a scenario file's text into the app's scenario, checking that its model compiles.
+    pub fn from_ron(text: &str) -> Result<(Self, Model), ScenarioError> {
+        let f = ScenarioFile::from_ron(text)?;
+        let s = Self::from_file(&f);
+        let model = Model::new(&s.spec)?;
+        Ok((s, model))
+    }
+
+    /// The scenario as a file holds it. Slider ranges are written out in full so that the
+    /// file reopens with the same sliders.
+    pub fn to_file(&self) -> ScenarioFile {
+        let spec = &self.spec;
+        ScenarioFile {
+            version: SCENARIO_VERSION,
+            title: spec.name.clone(),
+            notes: self.notes.clone(),
+            variables: [0, 1].map(|i| Variable {
+                name: spec.variables[i].clone(),
+                unit: self.variable_info[i].unit.clone(),
+                description: self.variable_info[i].description.clone(),
+            }),
+            rates: spec.rates.clone(),
+            parameters: spec
+                .parameters
+                .iter()
+                .enumerate()
+                .map(|(i, p)| {
+                    let setting = self.params.get(i);
+                    let (min, max) = setting.map_or((None, None), |s| match s.range {
+                        Some((lo, hi)) => (Some(lo), Some(hi)),
+                        None => (None, None),
+                    });
+                    ParameterDef {
+                        name: p.name.clone(),
+                        value: p.value,
+                        min,
+                        max,
+                        log: setting.is_some_and(|s| s.logarithmic),
+                        unit: setting.map(|s| s.unit.clone()).unwrap_or_default(),
+                        description: setting.map(|s| s.description.clone()).unwrap_or_default(),
+                    }
+                })
+                .collect(),
+            invariant: spec.invariant.clone(),
+            window: spec.window,
+            layers: self.layers,
+            orbits: self
+                .seeds
+                .iter()
+                .map(|s| file::OrbitSeed {
+                    x: s.at[0],
+                    y: s.at[1],
+                    direction: to_file_direction(s.direction),
+                    hidden: !s.visible,
+                })
+                .collect(),
+            orbit_time: self.orbit_time,
+            playback: self.playback,
         }
     }
 
@@ -259,15 +369,13 @@ impl Scenario {
     pub fn scene_request(&self) -> SceneRequest {
         let l = &self.layers;
         SceneRequest {
-            field: l.show_field.then_some(FIELD_GRID),
-            streamlines: l.show_streamlines,
-            nullcline_grid: l.show_nullclines.then_some(CURVE_GRID),
-            contours: l
-                .show_contours
-                .then_some(ContourLevels::Count(CONTOUR_COUNT)),
+            field: l.field.then_some(FIELD_GRID),
+            streamlines: l.streamlines,
+            nullcline_grid: l.nullclines.then_some(CURVE_GRID),
+            contours: l.contours.then_some(ContourLevels::Count(CONTOUR_COUNT)),
             contour_grid: CURVE_GRID,
-            separatrices: l.show_separatrices,
-            limit_cycles: l.show_limit_cycles,
+            separatrices: l.separatrices,
+            limit_cycles: l.limit_cycles,
             seeds: self
                 .seeds
                 .iter()
@@ -313,5 +421,23 @@ mod tests {
         sc.replace_model(spec);
         assert!(sc.params[0].logarithmic);
         assert_eq!(sc.params[1], ParamSetting::new(0.1));
+    }
+
+    #[test]
+    fn every_demo_scenario_comes_back_unchanged_through_the_app() {
+        let dir = concat!(env!("CARGO_MANIFEST_DIR"), "/../../scenarios");
+        let mut seen = 0;
+        for entry in std::fs::read_dir(dir).expect("the demo folder") {
+            let path = entry.expect("entry").path();
+            if path.extension().is_none_or(|e| e != "ron") {
+                continue;
+            }
+            let file = ScenarioFile::load(&path).expect("a demo loads");
+            let app = Scenario::from_file(&file);
+            assert_eq!(app.seeds.len(), file.orbits.len(), "{}", path.display());
+            assert_eq!(app.to_file(), file, "{}", path.display());
+            seen += 1;
+        }
+        assert!(seen >= 6, "only {seen} demos");
     }
 }

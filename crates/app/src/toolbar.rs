@@ -1,9 +1,12 @@
 //! The bar across the top: the model, undo/redo, the view, and which panels are open.
 
+use std::path::PathBuf;
+
 use egui::{Button, RichText, Ui};
 use quarry_core::library::BUILTINS;
 
 use crate::command::{Command, PanelKind};
+use crate::files::FileAction;
 use crate::scenario::Scenario;
 
 /// Which panels are open.
@@ -54,7 +57,9 @@ impl OpenPanels {
 
 /// What the toolbar needs to know besides the scenario.
 #[derive(Clone, Copy, Debug)]
-pub struct ToolbarState {
+pub struct ToolbarState<'a> {
+    /// Files opened or saved lately, newest first.
+    pub recent: &'a [PathBuf],
     /// Whether undo has something to do.
     pub can_undo: bool,
     /// Whether redo has something to do.
@@ -75,11 +80,48 @@ impl Toolbar {
         &mut self,
         ui: &mut Ui,
         scenario: &Scenario,
-        state: ToolbarState,
+        state: ToolbarState<'_>,
         out: &mut Vec<Command>,
     ) {
         ui.horizontal(|ui| {
             ui.label(RichText::new("Quarry").strong().size(16.0));
+            ui.separator();
+            ui.menu_button("File", |ui| {
+                let item = |ui: &mut Ui, text: &str, keys: &str| {
+                    ui.add(Button::new(text).shortcut_text(keys)).clicked()
+                };
+                if item(ui, "New scenario", "Ctrl+N") {
+                    out.push(Command::New);
+                }
+                if item(ui, "Open…", "Ctrl+O") {
+                    out.push(Command::ShowFileWindow(FileAction::Open));
+                }
+                ui.menu_button("Open recent", |ui| {
+                    if state.recent.is_empty() {
+                        ui.weak("No recent files");
+                    }
+                    for p in state.recent {
+                        let name = p
+                            .file_name()
+                            .map(|n| n.to_string_lossy().into_owned())
+                            .unwrap_or_else(|| p.display().to_string());
+                        if ui
+                            .button(name)
+                            .on_hover_text(p.display().to_string())
+                            .clicked()
+                        {
+                            out.push(Command::Open(p.clone()));
+                        }
+                    }
+                });
+                ui.separator();
+                if item(ui, "Save", "Ctrl+S") {
+                    out.push(Command::Save);
+                }
+                if item(ui, "Save as…", "Ctrl+Shift+S") {
+                    out.push(Command::ShowFileWindow(FileAction::SaveAs));
+                }
+            });
             ui.separator();
             let l = ui.label("Model");
             let combo = egui::ComboBox::from_id_salt("toolbar-library")

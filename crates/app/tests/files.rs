@@ -1,0 +1,183 @@
+//! Opening, saving, the unsaved-changes guard and crash recovery, driven through the UI.
+
+use std::path::PathBuf;
+
+use egui::Vec2;
+use egui_kittest::Harness;
+use egui_kittest::kittest::Queryable;
+use quarry_app::QuarryApp;
+use quarry_app::command::Command;
+use quarry_core::scenario::{Scenario as ScenarioFile, default_scenario};
+
+fn harness(app: QuarryApp) -> Harness<'static, QuarryApp> {
+    let mut h = Harness::builder()
+        .with_size(Vec2::new(1280.0, 800.0))
+        .build_ui_state(|ui, app: &mut QuarryApp| app.frame_ui(ui), app);
+    h.run();
+    h
+}
+
+fn temp_dir(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("quarry-ui-{name}-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    dir
+}
+
+/// Types a path into the file window's path field.
+fn type_path(h: &mut Harness<'_, QuarryApp>, path: &std::path::Path) {
+    h.get_by_label("Scenario file (.ron):").focus();
+    h.run();
+    h.get_by_label("Scenario file (.ron):")
+        .type_text(&path.display().to_string());
+    h.run();
+}
+
+fn demo(name: &str) -> PathBuf {
+    PathBuf::from(concat!(env!("CARGO_MANIFEST_DIR"), "/../../scenarios")).join(name)
+}
+
+#[test]
+fn opening_a_demo_file_brings_its_orbits_layers_and_title() {
+    let path = demo("brenmoor-voles-and-owls.ron");
+    let file = ScenarioFile::load(&path).expect("demo loads");
+    let mut h = harness(QuarryApp::new_synchronous(
+        quarry_core::library::default_model(),
+    ));
+    h.state_mut().apply(Command::Open(path.clone()));
+    h.run();
+    let app = h.state();
+    assert_eq!(app.scenario().to_file(), file);
+    assert_eq!(app.scenario().seeds.len(), file.orbits.len());
+    assert_eq!(app.path(), Some(path.as_path()));
+    assert!(!app.is_dirty());
+    let title = app.title();
+    assert!(title.starts_with("Quarry — "), "{title}");
+    assert!(title.contains("brenmoor-voles-and-owls.ron"), "{title}");
+    assert!(!title.contains("unsaved"), "{title}");
+    let scene = app.scene().expect("scene");
+    assert_eq!(scene.orbits.len(), file.orbits.len());
+}
+
+#[test]
+fn save_as_through_the_path_field_writes_the_file_and_marks_it_saved() {
+    let dir = temp_dir("save-as");
+    let target = dir.join("my lake.ron");
+    let mut h = harness(QuarryApp::from_file_synchronous(
+        &default_scenario(),
+        None,
+        Some(dir.clone()),
+    ));
+    assert!(h.state().title().contains("not saved to a file"));
+    // A change makes the title say so.
+    h.get_by_label("c").set_value_accesskit(2.25);
+    h.run();
+    assert!(h.state().is_dirty());
+    assert!(h.state().title().ends_with("unsaved changes"));
+
+    h.state_mut().apply(Command::ShowFileWindow(
+        quarry_app::files::FileAction::SaveAs,
+    ));
+    h.run();
+    type_path(&mut h, &target);
+    h.get_by_label("Save").click();
+    h.run();
+    assert!(target.exists());
+    assert!(!h.state().is_dirty());
+    assert!(h.state().title().contains("my lake.ron"));
+    let back = ScenarioFile::load(&target).expect("reads back");
+    assert_eq!(back, h.state().scenario().to_file());
+    assert!(
+        back.parameters
+            .iter()
+            .any(|p| p.name == "c" && p.value == 2.25)
+    );
+    // It is now at the top of the recent files.
+    let recent = std::fs::read_to_string(dir.join("recent.txt")).expect("recent list");
+    assert!(
+        recent
+            .lines()
+            .next()
+            .is_some_and(|l| l.ends_with("my lake.ron"))
+    );
+}
+
+#[test]
+fn a_bad_file_shows_line_and_column_and_the_scenario_stays() {
+    let dir = temp_dir("bad");
+    let bad = dir.join("broken.ron");
+    let text = default_scenario()
+        .to_ron()
+        .replacen("value: 1.0", "value: yes", 1);
+    std::fs::write(&bad, text).expect("write");
+    let mut h = harness(QuarryApp::from_file_synchronous(
+        &default_scenario(),
+        None,
+        None,
+    ));
+    let before = h.state().scenario().clone();
+    h.state_mut()
+        .apply(Command::ShowFileWindow(quarry_app::files::FileAction::Open));
+    h.run();
+    type_path(&mut h, &bad);
+    h.get_by_label("Open").click();
+    h.run();
+    let shown = h.get_by_label_contains("broken.ron: line");
+    let message = format!("{shown:?}");
+    assert!(message.contains("column"), "{message}");
+    assert!(message.contains("parameters[0].value"), "{message}");
+    assert_eq!(*h.state().scenario(), before);
+}
+
+#[test]
+fn new_over_unsaved_changes_asks_first_and_cancel_keeps_them() {
+    let mut h = harness(QuarryApp::from_file_synchronous(
+        &default_scenario(),
+        None,
+        None,
+    ));
+    h.get_by_label("c").set_value_accesskit(2.25);
+    h.run();
+    let changed = h.state().scenario().clone();
+    h.state_mut().apply(Command::New);
+    h.run();
+    h.get_by_label("Unsaved changes");
+    h.get_by_label("Cancel").click();
+    h.run();
+    assert_eq!(*h.state().scenario(), changed);
+    assert!(h.state().is_dirty());
+
+    h.state_mut().apply(Command::New);
+    h.run();
+    h.get_by_label("Discard changes").click();
+    h.run();
+    assert!(!h.state().is_dirty());
+    assert_eq!(h.state().scenario().to_file(), default_scenario());
+}
+
+#[test]
+fn work_left_by_a_crashed_session_is_offered_back() {
+    let dir = temp_dir("recovery");
+    let mut lost = default_scenario();
+    lost.notes = "work that was never saved".into();
+    lost.parameters[0].value = 1.75;
+    // A recovery file as autosave writes it, from a process id that is not running.
+    let text = format!(
+        "// Quarry recovery file of: (never saved)\n{}",
+        lost.to_ron()
+    );
+    let file = dir.join("recovery-4294967290.ron");
+    std::fs::write(&file, text).expect("write");
+
+    let mut h = harness(QuarryApp::from_file_synchronous(
+        &default_scenario(),
+        None,
+        Some(dir.clone()),
+    ));
+    h.get_by_label("Recover unsaved work?");
+    h.get_by_label("Restore").click();
+    h.run();
+    assert_eq!(h.state().scenario().to_file(), lost);
+    assert!(h.state().is_dirty(), "restored work is not saved yet");
+    assert!(!file.exists(), "the recovery file is used up");
+}
