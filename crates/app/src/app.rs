@@ -20,9 +20,10 @@ use crate::history::History;
 use crate::layers::LayersPanel;
 use crate::orbits::OrbitsPanel;
 use crate::params::ParamsPanel;
-use crate::plane::PlanePanel;
+use crate::plane::{PlanePanel, PlaneView};
 use crate::scenario::{LayerSwitch, Scenario};
 use crate::status::{StatusBar, StatusState};
+use crate::timeseries::{Player, TimeSeriesPanel, selected_orbits, time_span};
 use crate::toolbar::{OpenPanels, Toolbar, ToolbarState};
 use crate::worker::SceneSource;
 
@@ -79,6 +80,10 @@ pub struct QuarryApp {
     native_dialogs: bool,
     /// Set once the user has agreed to close.
     closing: bool,
+    timeseries: TimeSeriesPanel,
+    /// Orbits selected for the time series and playback, by seed id.
+    selection: Vec<u64>,
+    player: Player,
 }
 
 impl QuarryApp {
@@ -162,7 +167,11 @@ impl QuarryApp {
             recovery,
             native_dialogs: false,
             closing: false,
+            timeseries: TimeSeriesPanel::default(),
+            selection: Vec::new(),
+            player: Player::default(),
         };
+        app.select_all();
         app.request_scene();
         app
     }
@@ -185,6 +194,17 @@ impl QuarryApp {
     /// The plane's rectangle on screen on the last frame.
     pub fn plane_rect(&self) -> Option<egui::Rect> {
         self.plane.screen_rect
+    }
+
+    /// Where a state of the plane was drawn on screen on the last frame.
+    pub fn plane_screen_pos(&self, at: [f64; 2]) -> Option<egui::Pos2> {
+        self.plane.screen_pos(at)
+    }
+
+    /// The time hovered in the time series, or on a selected orbit in the plane, on the last
+    /// frame.
+    pub fn hovered_time(&self) -> (Option<f64>, Option<f64>) {
+        (self.timeseries.hover_time, self.plane.hover_time)
     }
 
     /// Why the model editor's text does not compile, if it does not.
@@ -211,6 +231,36 @@ impl QuarryApp {
         self.document.path.as_deref()
     }
 
+    /// The orbits selected for the time series, by seed id.
+    pub fn selection(&self) -> &[u64] {
+        &self.selection
+    }
+
+    /// The playback time, once playback has been used.
+    pub fn playback_time(&self) -> Option<f64> {
+        self.player.time
+    }
+
+    /// Whether playback is running.
+    pub fn is_playing(&self) -> bool {
+        self.player.playing
+    }
+
+    /// Selects every orbit (after opening a scenario).
+    fn select_all(&mut self) {
+        self.selection = self.scenario.seeds.iter().map(|s| s.id).collect();
+    }
+
+    /// The time span of the selected orbits in the scene on screen.
+    fn playback_span(&self) -> Option<(f64, f64)> {
+        let scene = self.scenes.shown().map(|s| &s.scene)?;
+        time_span(
+            selected_orbits(&self.scenario, scene, &self.selection)
+                .into_iter()
+                .map(|(_, o)| o),
+        )
+    }
+
     /// The message of the last file operation or start-up problem.
     pub fn notice(&self) -> Option<&str> {
         self.notice.as_deref()
@@ -226,6 +276,20 @@ impl QuarryApp {
         self.scenes.poll();
         let mut out = Vec::new();
         self.shortcuts(ui.ctx(), &mut out);
+
+        let span = self.playback_span();
+        let pb = self.scenario.playback;
+        self.player.tick(Instant::now(), pb.speed, pb.looped, span);
+        if self.player.playing {
+            ui.ctx().request_repaint();
+        }
+        // A time hovered in one plot is marked in the other; playback wins while it runs.
+        let hovered = self.timeseries.hover_time.or(self.plane.hover_time);
+        let cursor = if self.player.playing {
+            self.player.time
+        } else {
+            hovered.or(self.player.time)
+        };
 
         let shown = self.scenes.shown();
         let scene = shown.map(|s| &s.scene);
@@ -268,7 +332,8 @@ impl QuarryApp {
                         self.layers
                             .ui(ui, &self.scenario, self.model.has_invariant(), &mut out);
                         ui.separator();
-                        self.orbits.ui(ui, &self.scenario, scene, busy, &mut out);
+                        self.orbits
+                            .ui(ui, &self.scenario, scene, &self.selection, busy, &mut out);
                     });
             });
 
@@ -300,7 +365,31 @@ impl QuarryApp {
         }
 
         egui::CentralPanel::default().show(ui, |ui| {
-            self.plane.ui(ui, &self.scenario, scene, &mut out);
+            if self.panels.time_series {
+                Panel::bottom("time-series")
+                    .resizable(true)
+                    .default_size(220.0)
+                    .min_size(120.0)
+                    .show(ui, |ui| {
+                        ui.add_space(4.0);
+                        self.timeseries.ui(
+                            ui,
+                            &self.scenario,
+                            scene,
+                            &self.selection,
+                            &self.player,
+                            cursor,
+                            &mut out,
+                        );
+                    });
+            } else {
+                self.timeseries.hover_time = None;
+            }
+            let view = PlaneView {
+                selection: &self.selection,
+                marker_time: cursor,
+            };
+            self.plane.ui(ui, &self.scenario, scene, view, &mut out);
         });
 
         let ctx = ui.ctx().clone();
@@ -463,6 +552,8 @@ impl QuarryApp {
         self.history = History::new();
         self.editor.reset_to(&self.scenario.spec);
         self.plane.reset_view();
+        self.player = Player::default();
+        self.select_all();
     }
 
     fn start_new(&mut self) {
@@ -604,6 +695,9 @@ impl QuarryApp {
             if plain(i, Key::E) {
                 out.push(Command::ShowPanel(PanelKind::Editor, !self.panels.editor));
             }
+            if plain(i, Key::Space) {
+                out.push(Command::TogglePlayback);
+            }
             if plain(i, Key::F1) {
                 out.push(Command::ShowPanel(PanelKind::Help, !self.panels.help));
             }
@@ -648,6 +742,26 @@ impl QuarryApp {
                 self.carry_out(next);
             }
             Command::ShowFileWindow(action) => self.open_file_window(action),
+            Command::SelectOrbit { id, toggle } => {
+                if toggle {
+                    if let Some(k) = self.selection.iter().position(|s| *s == id) {
+                        self.selection.remove(k);
+                    } else {
+                        self.selection.push(id);
+                    }
+                } else {
+                    self.selection = vec![id];
+                }
+            }
+            Command::TogglePlayback => {
+                let span = self.playback_span();
+                self.player.toggle(span);
+            }
+            Command::SetPlaybackTime(t) if t.is_finite() => self.player.time = Some(t),
+            Command::SetPlaybackSpeed(v) if v.is_finite() && v > 0.0 => {
+                self.scenario.playback.speed = v;
+            }
+            Command::SetPlaybackLoop(on) => self.scenario.playback.looped = on,
             _ => {}
         }
     }
@@ -754,8 +868,18 @@ impl QuarryApp {
                 }
             }
             Command::AddOrbit(at) if at.iter().all(|v| v.is_finite()) => {
-                self.scenario.add_seed(*at);
+                let id = self.scenario.add_seed(*at);
+                self.selection = vec![id];
                 true
+            }
+            Command::MoveOrbit(id, at) if at.iter().all(|v| v.is_finite()) => {
+                match self.scenario.seeds.iter_mut().find(|s| s.id == *id) {
+                    Some(s) if s.at != *at => {
+                        s.at = *at;
+                        true
+                    }
+                    _ => false,
+                }
             }
             Command::RemoveOrbit(id) => {
                 let n = self.scenario.seeds.len();

@@ -80,6 +80,23 @@ pub enum Command {
     SaveAs(PathBuf),
     /// Show the file window to open or save as.
     ShowFileWindow(FileAction),
+    /// Move an orbit's start (dragging its start point).
+    MoveOrbit(u64, [f64; 2]),
+    /// Select an orbit for the time series: alone, or added to (removed from) the selection.
+    SelectOrbit {
+        /// The seed id.
+        id: u64,
+        /// Toggle it in the selection instead of selecting it alone.
+        toggle: bool,
+    },
+    /// Start or pause playback.
+    TogglePlayback,
+    /// Put the playback point at a time.
+    SetPlaybackTime(f64),
+    /// Model time units per second of playback.
+    SetPlaybackSpeed(f64),
+    /// Whether playback starts again at the end.
+    SetPlaybackLoop(bool),
 }
 
 /// Panels that can be opened and closed.
@@ -93,6 +110,8 @@ pub enum PanelKind {
     Cautions,
     /// Keyboard shortcuts and how to use the plane.
     Help,
+    /// Both variables against time.
+    TimeSeries,
 }
 
 /// Which consecutive changes merge into one undo step.
@@ -102,6 +121,8 @@ pub enum MergeKey {
     Param(usize),
     /// Typing in the model editor.
     Editor,
+    /// Dragging one orbit's start point.
+    Orbit(u64),
 }
 
 impl Command {
@@ -122,6 +143,7 @@ impl Command {
                 | Command::ClearOrbits
                 | Command::SetOrbitTime(_)
                 | Command::UseViewAsWindow(_)
+                | Command::MoveOrbit(..)
         )
     }
 
@@ -130,6 +152,7 @@ impl Command {
         match self {
             Command::SetParam { index, .. } => Some(MergeKey::Param(*index)),
             Command::EditModel(_) => Some(MergeKey::Editor),
+            Command::MoveOrbit(id, _) => Some(MergeKey::Orbit(*id)),
             _ => None,
         }
     }

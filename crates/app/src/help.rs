@@ -15,6 +15,7 @@ pub const SHORTCUTS: &[(&str, &str)] = &[
     ("B", "New orbits run backward in time"),
     ("T", "New orbits run both ways"),
     ("Delete", "Delete the newest orbit"),
+    ("Space", "Play or pause the selected orbits"),
     ("E", "Open or close the model editor"),
     ("F1", "Open or close this help"),
 ];
@@ -29,6 +30,8 @@ impl HelpPanel {
         ui.label(RichText::new("On the plane").strong());
         for line in [
             "Click: start an orbit from that state.",
+            "Drag an orbit's start point: move the orbit (one undo step per drag).",
+            "Hover an orbit that is selected: its time is marked in the time series, and back.",
             "Drag: pan.  Scroll or pinch: zoom.  Ctrl+scroll: zoom one axis.",
             "Click a legend entry to hide or show that layer.",
             "The grey frame is the model's window, where the field and curves are computed; \

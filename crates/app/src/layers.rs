@@ -21,6 +21,7 @@ fn layer_colour(layer: Layer) -> Color32 {
         Layer::LimitCycles => style::LIMIT_CYCLE,
         Layer::Orbits => style::ORBITS[0],
         Layer::Contours => style::CONTOUR,
+        Layer::Linearisation => style::LINEARISED,
     }
 }
 
@@ -46,11 +47,18 @@ impl LayersPanel {
                             ui.allocate_exact_size(Vec2::new(12.0, 12.0), egui::Sense::hover());
                         ui.painter()
                             .rect_filled(rect.shrink(2.0), 1.0, layer_colour(layer));
-                        let r = ui
+                        let mut r = ui
                             .add_enabled(enabled, egui::Checkbox::new(&mut on, layer.label()))
                             .on_disabled_hover_text(
                                 "This model has no first integral; add one in the model editor.",
                             );
+                        if layer == Layer::Linearisation {
+                            r = r.on_hover_text(
+                                "The linearised solution from each orbit's start, about the \
+                                 nearest equilibrium that is not a saddle: where it parts from \
+                                 the orbit, the linear picture stops holding.",
+                            );
+                        }
                         if r.changed() {
                             out.push(Command::SetLayer(layer, on));
                         }

@@ -21,6 +21,7 @@ pub mod plane;
 pub mod scenario;
 pub mod status;
 pub mod style;
+pub mod timeseries;
 pub mod toolbar;
 pub mod worker;
 

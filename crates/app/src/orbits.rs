@@ -51,6 +51,22 @@ pub fn summary_text(vars: &[String; 2], orbit: &SceneOrbit) -> String {
     }
 }
 
+/// The linearisation's period against the orbit's, when the linearisation layer computed
+/// one for this seed.
+fn linear_text(scene: &Scene, seed: &OrbitSeed) -> Option<String> {
+    let o = crate::plane::overlay_for(scene, seed)?;
+    Some(match (o.linear_period, o.nonlinear_period) {
+        (Some(lin), Some(real)) => format!(
+            "linearisation: period 2π/ω = {}, this orbit {} ({:+.1}%)",
+            num(lin),
+            num(real),
+            100.0 * (real - lin) / lin
+        ),
+        (Some(lin), None) => format!("linearisation: period 2π/ω = {}", num(lin)),
+        _ => "linearisation: no rotation (real eigenvalues)".to_owned(),
+    })
+}
+
 impl OrbitsPanel {
     /// Draws the settings and the list.
     pub fn ui(
@@ -58,6 +74,7 @@ impl OrbitsPanel {
         ui: &mut Ui,
         scenario: &Scenario,
         scene: Option<&Scene>,
+        selection: &[u64],
         busy: bool,
         out: &mut Vec<Command>,
     ) {
@@ -73,7 +90,10 @@ impl OrbitsPanel {
                 }
             });
         });
-        ui.weak("Click the plane to start an orbit there.");
+        ui.weak(
+            "Click the plane to start an orbit there; drag its start point to move it. Click a \
+             row to show that orbit against time (Ctrl+click adds it).",
+        );
         ui.horizontal(|ui| {
             ui.label("Run");
             let mut d = scenario.new_orbit_direction;
@@ -112,16 +132,21 @@ impl OrbitsPanel {
             .unwrap_or_else(|| vec![None; scenario.seeds.len()]);
         ui.add_space(4.0);
         for (seed, orbit) in scenario.seeds.iter().zip(matched) {
-            self.row_ui(ui, scenario, seed, orbit, busy, out);
+            let selected = selection.contains(&seed.id);
+            let overlay = scene.and_then(|s| linear_text(s, seed));
+            self.row_ui(ui, scenario, seed, orbit, selected, overlay, busy, out);
         }
     }
 
+    #[allow(clippy::too_many_arguments)]
     fn row_ui(
         &mut self,
         ui: &mut Ui,
         scenario: &Scenario,
         seed: &OrbitSeed,
         orbit: Option<&SceneOrbit>,
+        selected: bool,
+        linear: Option<String>,
         busy: bool,
         out: &mut Vec<Command>,
     ) {
@@ -143,7 +168,16 @@ impl OrbitsPanel {
                 num(seed.at[0]),
                 num(seed.at[1])
             );
-            ui.label(RichText::new(text).strong());
+            let r = ui
+                .selectable_label(selected, RichText::new(text).strong())
+                .on_hover_text("Show against time (Ctrl+click: add to the selection)");
+            if r.clicked() {
+                let toggle = ui.input(|i| i.modifiers.command || i.modifiers.shift);
+                out.push(Command::SelectOrbit {
+                    id: seed.id,
+                    toggle,
+                });
+            }
             ui.with_layout(egui::Layout::right_to_left(egui::Align::Center), |ui| {
                 let r = ui
                     .small_button("🗙")
@@ -163,6 +197,12 @@ impl OrbitsPanel {
             ui.add_space(26.0);
             ui.add(egui::Label::new(RichText::new(detail).weak()).wrap());
         });
+        if let Some(linear) = linear {
+            ui.horizontal(|ui| {
+                ui.add_space(26.0);
+                ui.add(egui::Label::new(RichText::new(linear).weak().italics()).wrap());
+            });
+        }
         ui.add_space(2.0);
     }
 }

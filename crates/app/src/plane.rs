@@ -1,8 +1,11 @@
 //! The phase plane: every layer of the scene drawn with egui_plot, and clicks that start
 //! orbits.
 
-use egui::{CursorIcon, Rect, Ui};
-use egui_plot::{Arrows, Corner, Legend, Line, LineStyle, Plot, PlotPoints, Points};
+use egui::{CursorIcon, Pos2, Rect, Ui};
+use egui_plot::{
+    Arrows, Corner, Legend, Line, LineStyle, Plot, PlotPoint, PlotPoints, PlotTransform, Points,
+};
+use quarry_core::linearised::LinearOverlay;
 use quarry_core::scene::{CycleStability, ManifoldKind, Polyline, Scene, SceneOrbit};
 
 use crate::command::Command;
@@ -15,6 +18,18 @@ const ARROW_FILL: f64 = 0.72;
 const MARKER_RADIUS: f32 = 7.5;
 /// Length of the small arrow that shows which way an orbit runs, in points.
 const ORBIT_ARROW_PX: f64 = 14.0;
+/// How near (in points) the pointer must be to an orbit's start to drag it, or to an orbit
+/// to mark its time in the time series.
+const PICK_RADIUS: f32 = 9.0;
+
+/// What the plane shows besides the scenario and its scene.
+#[derive(Clone, Copy, Debug, Default)]
+pub struct PlaneView<'a> {
+    /// Orbits selected for the time series (and playback).
+    pub selection: &'a [u64],
+    /// A time to mark on the selected orbits (playback, or hovered in the time series).
+    pub marker_time: Option<f64>,
+}
 
 /// The plane and what it remembers between frames (none of it is scenario state).
 #[derive(Debug)]
@@ -29,6 +44,14 @@ pub struct PlanePanel {
     pub screen_rect: Option<Rect>,
     /// The visible bounds on the last frame: x_min, x_max, y_min, y_max.
     pub view: Option<[f64; 4]>,
+    /// The time on a selected orbit under the pointer, on the last frame.
+    pub hover_time: Option<f64>,
+    /// The plot's transform on the last frame, to pick seeds when a press starts.
+    transform: Option<PlotTransform>,
+    /// The orbit whose start point is being dragged.
+    dragging: Option<u64>,
+    /// Set when a press started on a start point, so that letting go is not a new orbit.
+    press_on_seed: bool,
 }
 
 impl Default for PlanePanel {
@@ -39,6 +62,10 @@ impl Default for PlanePanel {
             hover: None,
             screen_rect: None,
             view: None,
+            hover_time: None,
+            transform: None,
+            dragging: None,
+            press_on_seed: false,
         }
     }
 }
@@ -74,14 +101,109 @@ impl PlanePanel {
         self.reset_pending = true;
     }
 
-    /// Draws the plane; a click on it asks for an orbit there.
+    /// Where a state was drawn on screen on the last frame.
+    pub fn screen_pos(&self, at: [f64; 2]) -> Option<Pos2> {
+        Some(
+            self.transform?
+                .position_from_point(&PlotPoint::new(at[0], at[1])),
+        )
+    }
+
+    /// The seed whose start point is within reach of a screen position.
+    fn seed_at(&self, scenario: &Scenario, pos: Pos2) -> Option<u64> {
+        let t = self.transform?;
+        scenario
+            .seeds
+            .iter()
+            .filter(|s| s.visible && scenario.layers.orbits)
+            .map(|s| {
+                let p = t.position_from_point(&PlotPoint::new(s.at[0], s.at[1]));
+                (s.id, p.distance(pos))
+            })
+            .filter(|(_, d)| *d <= PICK_RADIUS)
+            .min_by(|a, b| a.1.total_cmp(&b.1))
+            .map(|(id, _)| id)
+    }
+
+    /// Starts, continues or ends dragging a start point; returns whether a drag is on.
+    fn drag_seed(&mut self, ui: &Ui, scenario: &Scenario, out: &mut Vec<Command>) -> bool {
+        let (pressed, down, pos) = ui.input(|i| {
+            (
+                i.pointer.primary_pressed(),
+                i.pointer.primary_down(),
+                i.pointer.interact_pos(),
+            )
+        });
+        if pressed
+            && let Some(pos) = pos
+            && self.screen_rect.is_some_and(|r| r.contains(pos))
+        {
+            self.dragging = self.seed_at(scenario, pos);
+            self.press_on_seed = self.dragging.is_some();
+        }
+        let Some(id) = self.dragging else {
+            return false;
+        };
+        if !down {
+            self.dragging = None;
+            out.push(Command::EndGesture);
+            return false;
+        }
+        if let (Some(t), Some(pos)) = (self.transform, pos) {
+            let p = t.value_from_position(pos);
+            let moved = scenario
+                .seeds
+                .iter()
+                .find(|s| s.id == id)
+                .is_some_and(|s| s.at != [p.x, p.y]);
+            if moved && p.x.is_finite() && p.y.is_finite() {
+                out.push(Command::MoveOrbit(id, [p.x, p.y]));
+            }
+        }
+        true
+    }
+
+    /// The time on a selected orbit nearest the pointer, when one is within reach.
+    fn time_under(
+        t: &PlotTransform,
+        scenario: &Scenario,
+        scene: &Scene,
+        selection: &[u64],
+        pos: Pos2,
+    ) -> Option<f64> {
+        let mut best: Option<(f32, f64)> = None;
+        for (seed, orbit) in scenario
+            .seeds
+            .iter()
+            .zip(match_orbits(&scenario.seeds, scene))
+        {
+            let Some(orbit) = orbit else { continue };
+            if !seed.visible || !selection.contains(&seed.id) {
+                continue;
+            }
+            for (time, p) in orbit.times.iter().zip(&orbit.points) {
+                let d = t
+                    .position_from_point(&PlotPoint::new(p[0], p[1]))
+                    .distance(pos);
+                if d <= PICK_RADIUS && best.is_none_or(|(bd, _)| d < bd) {
+                    best = Some((d, *time));
+                }
+            }
+        }
+        best.map(|(_, time)| time)
+    }
+
+    /// Draws the plane; a click on it asks for an orbit there, and dragging an orbit's start
+    /// point moves the orbit.
     pub fn ui(
         &mut self,
         ui: &mut Ui,
         scenario: &Scenario,
         scene: Option<&Scene>,
+        view: PlaneView<'_>,
         out: &mut Vec<Command>,
     ) {
+        let dragging = self.drag_seed(ui, scenario, out);
         let w = scenario.spec.window;
         let [xn, yn] = &scenario.spec.variables;
         let mut plot = Plot::new("plane")
@@ -90,6 +212,7 @@ impl PlanePanel {
             .default_x_bounds(w.x_min, w.x_max)
             .default_y_bounds(w.y_min, w.y_max)
             .allow_double_click_reset(false)
+            .allow_drag(!dragging)
             .show_crosshair(false)
             .label_formatter(|_| None)
             .legend(
@@ -198,8 +321,12 @@ impl PlanePanel {
                         );
                     }
                 }
+                if layers.linearisation {
+                    overlays_ui(pui, scenario, scene);
+                }
                 if layers.orbits {
                     orbits_ui(pui, scenario, scene, ppu);
+                    markers_ui(pui, scenario, scene, view);
                 }
                 if layers.equilibria {
                     equilibria_ui(pui, scene);
@@ -225,12 +352,33 @@ impl PlanePanel {
             bounds.max()[1],
         ]);
         let t = &response.transform;
+        self.transform = Some(*t);
         let ppu = [t.dpos_dvalue_x().abs(), t.dpos_dvalue_y().abs()];
         if ppu.iter().all(|v| v.is_finite() && *v > 0.0) {
             self.points_per_unit = ppu;
         }
-        let r = response.response.on_hover_cursor(CursorIcon::Crosshair);
+        let r = &response.response;
+        self.hover_time = match (scene, r.hover_pos()) {
+            (Some(scene), Some(pos)) if layers.orbits => {
+                Self::time_under(t, scenario, scene, view.selection, pos)
+            }
+            _ => None,
+        };
+        let over_seed = r.hover_pos().and_then(|p| self.seed_at(scenario, p));
+        let cursor = if dragging {
+            CursorIcon::Grabbing
+        } else if over_seed.is_some() {
+            CursorIcon::Grab
+        } else {
+            CursorIcon::Crosshair
+        };
+        let r = response.response.on_hover_cursor(cursor);
+        let press_on_seed = self.press_on_seed;
+        if !ui.input(|i| i.pointer.any_down()) {
+            self.press_on_seed = false;
+        }
         if r.clicked()
+            && !press_on_seed
             && let Some(pos) = r.interact_pointer_pos()
         {
             let p = t.value_from_position(pos);
@@ -321,6 +469,65 @@ fn orbits_ui(pui: &mut egui_plot::PlotUi<'_>, scenario: &Scenario, scene: &Scene
                     .allow_hover(false),
             );
         }
+    }
+}
+
+/// A filled point where each selected orbit is at the marked time.
+fn markers_ui(
+    pui: &mut egui_plot::PlotUi<'_>,
+    scenario: &Scenario,
+    scene: &Scene,
+    view: PlaneView<'_>,
+) {
+    let Some(time) = view.marker_time else {
+        return;
+    };
+    for (seed, orbit) in crate::timeseries::selected_orbits(scenario, scene, view.selection) {
+        let Some(p) = crate::timeseries::state_at(orbit, time) else {
+            continue;
+        };
+        let colour = style::orbit_colour(seed.id);
+        pui.points(
+            Points::new("", vec![p])
+                .color(egui::Color32::WHITE)
+                .filled(true)
+                .radius(7.0)
+                .allow_hover(false),
+        );
+        pui.points(
+            Points::new("", vec![p])
+                .color(colour)
+                .filled(true)
+                .radius(5.0)
+                .allow_hover(false),
+        );
+    }
+}
+
+/// The linearised solution from a seed, if the scene has one. Each starts at its seed (up to
+/// rounding in p* + (start − p*)), which is how it is matched: the scene may be a step
+/// behind the seeds.
+pub fn overlay_for<'a>(scene: &'a Scene, seed: &OrbitSeed) -> Option<&'a LinearOverlay> {
+    scene.linear_overlays.iter().flatten().find(|o| {
+        o.points.first().is_some_and(|p| {
+            (0..2).all(|k| (p[k] - seed.at[k]).abs() <= 1e-9 * (1.0 + seed.at[k].abs()))
+        })
+    })
+}
+
+/// The linearised solutions, dotted in their orbit's colour.
+fn overlays_ui(pui: &mut egui_plot::PlotUi<'_>, scenario: &Scenario, scene: &Scene) {
+    for seed in scenario.seeds.iter().filter(|s| s.visible) {
+        let Some(overlay) = overlay_for(scene, seed) else {
+            continue;
+        };
+        pui.line(
+            Line::new("linearisation", overlay.points.clone())
+                .color(style::orbit_colour(seed.id))
+                .width(1.6)
+                .style(LineStyle::Dotted { spacing: 5.0 })
+                .allow_hover(false),
+        );
     }
 }
 

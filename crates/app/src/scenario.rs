@@ -102,11 +102,13 @@ pub enum Layer {
     Orbits,
     /// The contours layer.
     Contours,
+    /// The linearised solutions.
+    Linearisation,
 }
 
 impl Layer {
     /// Every layer, in the order the layer list shows them.
-    pub const ALL: [Layer; 8] = [
+    pub const ALL: [Layer; 9] = [
         Layer::Field,
         Layer::Streamlines,
         Layer::Nullclines,
@@ -115,6 +117,7 @@ impl Layer {
         Layer::LimitCycles,
         Layer::Orbits,
         Layer::Contours,
+        Layer::Linearisation,
     ];
 
     /// The checkbox label.
@@ -128,6 +131,7 @@ impl Layer {
             Layer::LimitCycles => "Limit cycles",
             Layer::Orbits => "Orbits",
             Layer::Contours => "First-integral contours",
+            Layer::Linearisation => "Linearisation",
         }
     }
 }
@@ -151,6 +155,7 @@ impl LayerSwitch for Layers {
             Layer::LimitCycles => self.limit_cycles,
             Layer::Orbits => self.orbits,
             Layer::Contours => self.contours,
+            Layer::Linearisation => self.linearisation,
         }
     }
 
@@ -164,6 +169,7 @@ impl LayerSwitch for Layers {
             Layer::LimitCycles => &mut self.limit_cycles,
             Layer::Orbits => &mut self.orbits,
             Layer::Contours => &mut self.contours,
+            Layer::Linearisation => &mut self.linearisation,
         };
         *flag = on;
     }
@@ -385,6 +391,7 @@ impl Scenario {
                 })
                 .collect(),
             orbit_time: self.orbit_time,
+            linear_overlays: l.linearisation,
             ..SceneRequest::default()
         }
     }

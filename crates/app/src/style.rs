@@ -25,6 +25,8 @@ pub const CONTOUR: Color32 = Color32::from_rgb(170, 178, 150);
 pub const SEPARATRIX: Color32 = Color32::from_rgb(124, 58, 237);
 /// Limit cycles.
 pub const LIMIT_CYCLE: Color32 = Color32::from_rgb(17, 24, 39);
+/// The linearised solutions (drawn dotted in their orbit's colour; this is the swatch).
+pub const LINEARISED: Color32 = Color32::from_rgb(100, 116, 139);
 /// Errors shown inline.
 pub const ERROR: Color32 = Color32::from_rgb(200, 30, 30);
 /// Stable equilibria.

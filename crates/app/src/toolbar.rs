@@ -20,6 +20,8 @@ pub struct OpenPanels {
     pub cautions: bool,
     /// The help.
     pub help: bool,
+    /// The time series under the plane.
+    pub time_series: bool,
 }
 
 impl Default for OpenPanels {
@@ -29,6 +31,7 @@ impl Default for OpenPanels {
             equilibria: true,
             cautions: false,
             help: false,
+            time_series: true,
         }
     }
 }
@@ -41,6 +44,7 @@ impl OpenPanels {
             PanelKind::Equilibria => self.equilibria,
             PanelKind::Cautions => self.cautions,
             PanelKind::Help => self.help,
+            PanelKind::TimeSeries => self.time_series,
         }
     }
 
@@ -51,6 +55,7 @@ impl OpenPanels {
             PanelKind::Equilibria => self.equilibria = open,
             PanelKind::Cautions => self.cautions = open,
             PanelKind::Help => self.help = open,
+            PanelKind::TimeSeries => self.time_series = open,
         }
     }
 }
@@ -176,6 +181,11 @@ impl Toolbar {
                     PanelKind::Editor,
                     "Edit model",
                     "Formulas, names, parameters (E)",
+                ),
+                (
+                    PanelKind::TimeSeries,
+                    "Time series",
+                    "Both variables against time, with playback",
                 ),
                 (
                     PanelKind::Equilibria,

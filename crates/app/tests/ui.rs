@@ -212,3 +212,120 @@ fn every_symbol_the_app_draws_has_a_glyph() {
     });
     h.run();
 }
+
+fn drag(h: &mut Harness<'_, QuarryApp>, from: Pos2, to: Pos2) {
+    h.event(Event::PointerMoved(from));
+    h.run();
+    h.event(Event::PointerButton {
+        pos: from,
+        button: PointerButton::Primary,
+        pressed: true,
+        modifiers: Modifiers::NONE,
+    });
+    h.run();
+    for k in 1..=5 {
+        let p = from + (to - from) * (k as f32 / 5.0);
+        h.event(Event::PointerMoved(p));
+        h.run();
+    }
+    h.event(Event::PointerButton {
+        pos: to,
+        button: PointerButton::Primary,
+        pressed: false,
+        modifiers: Modifiers::NONE,
+    });
+    h.run();
+}
+
+#[test]
+fn dragging_a_start_point_moves_its_orbit_in_one_undo_step() {
+    let mut h = lotka_volterra();
+    h.state_mut()
+        .apply(quarry_app::command::Command::AddOrbit([30.0, 10.0]));
+    h.run();
+    h.run();
+    let from = h.state().plane_screen_pos([30.0, 10.0]).expect("drawn");
+    drag(&mut h, from, from + Vec2::new(40.0, -30.0));
+    let seeds = &h.state().scenario().seeds;
+    assert_eq!(seeds.len(), 1, "a drag is not a click: no new orbit");
+    let at = seeds[0].at;
+    assert!(at[0] > 30.0 && at[1] > 10.0, "moved right and up: {at:?}");
+    // The scene follows: its orbit starts at the new place.
+    assert_eq!(h.state().scene().expect("scene").orbits[0].seed, at);
+    // The whole drag is one undo step.
+    h.key_press_modifiers(Modifiers::COMMAND, egui::Key::Z);
+    h.run();
+    assert_eq!(h.state().scenario().seeds[0].at, [30.0, 10.0]);
+}
+
+#[test]
+fn the_time_series_and_the_plane_mark_the_same_moment() {
+    let mut h = lotka_volterra();
+    h.state_mut()
+        .apply(quarry_app::command::Command::AddOrbit([30.0, 10.0]));
+    h.run();
+    h.run();
+    let id = h.state().scenario().seeds[0].id;
+    assert_eq!(h.state().selection(), &[id], "a new orbit is selected");
+    h.get_by_label_contains("x · #");
+    // Hover the orbit in the plane at a stored point: the time series gets its time.
+    let orbit = h.state().scene().expect("scene").orbits[0].clone();
+    let k = orbit.points.len() / 3;
+    let pos = h.state().plane_screen_pos(orbit.points[k]).expect("drawn");
+    h.event(Event::PointerMoved(pos));
+    h.run();
+    let (_, in_plane) = h.state().hovered_time();
+    let t = in_plane.expect("the plane found the orbit under the pointer");
+    // The nearest stored point is within the pick radius; its time is close to the one aimed at.
+    let i = orbit
+        .times
+        .iter()
+        .position(|s| *s == t)
+        .expect("a stored time");
+    let d =
+        (orbit.points[i][0] - orbit.points[k][0]).hypot(orbit.points[i][1] - orbit.points[k][1]);
+    assert!(d < 2.0, "picked a point {d} away");
+}
+
+#[test]
+fn playback_moves_the_time_on_and_space_pauses_it() {
+    let mut h = lotka_volterra();
+    h.state_mut()
+        .apply(quarry_app::command::Command::AddOrbit([30.0, 10.0]));
+    h.run();
+    h.get_by_label("▶ Play").click();
+    // Playing repaints every frame, so step frame by frame instead of running to rest.
+    h.step();
+    h.step();
+    assert!(h.state().is_playing());
+    let t0 = h.state().playback_time().expect("a time");
+    std::thread::sleep(std::time::Duration::from_millis(50));
+    h.step();
+    let t1 = h.state().playback_time().expect("a time");
+    assert!(t1 > t0, "{t0} → {t1}");
+    h.key_press(egui::Key::Space);
+    h.step();
+    h.run();
+    assert!(!h.state().is_playing());
+    h.get_by_label("▶ Play");
+}
+
+#[test]
+fn the_linearisation_layer_draws_the_linear_solution_and_compares_periods() {
+    let mut h = lotka_volterra();
+    h.get_by_label("Linearisation").click();
+    h.run();
+    h.state_mut()
+        .apply(quarry_app::command::Command::AddOrbit([22.0, 10.0]));
+    h.run();
+    h.run();
+    let scene = h.state().scene().expect("scene");
+    let overlay = scene.linear_overlays[0].as_ref().expect("an overlay");
+    // Lotka–Volterra about (c/γ, a/α): 2π/√(ac) = 2π/√1.5 (common practice).
+    let lin = overlay.linear_period.expect("a rotation");
+    assert!(
+        (lin - std::f64::consts::TAU / 1.5f64.sqrt()).abs() < 1e-9,
+        "{lin}"
+    );
+    h.get_by_label_contains("linearisation: period 2π/ω");
+}

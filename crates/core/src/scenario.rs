@@ -97,6 +97,14 @@ pub struct Layers {
     pub orbits: bool,
     /// Limit cycles.
     pub limit_cycles: bool,
+    /// The linearised solution from each orbit's start, about the nearest equilibrium that is
+    /// not a saddle (written only when on, so older files stay as they were).
+    #[serde(skip_serializing_if = "is_false")]
+    pub linearisation: bool,
+}
+
+fn is_false(b: &bool) -> bool {
+    !*b
 }
 
 impl Default for Layers {
@@ -110,6 +118,7 @@ impl Default for Layers {
             contours: true,
             orbits: true,
             limit_cycles: true,
+            linearisation: false,
         }
     }
 }
