@@ -47,7 +47,16 @@ impl ParamsPanel {
                 for (index, (p, setting)) in
                     spec.parameters.iter().zip(&scenario.params).enumerate()
                 {
-                    let label = ui.label(RichText::new(&p.name).monospace().strong());
+                    let mut label = ui.label(RichText::new(&p.name).monospace().strong());
+                    let about = match (setting.description.trim(), setting.unit.trim()) {
+                        ("", "") => String::new(),
+                        (d, "") => d.to_owned(),
+                        ("", u) => format!("unit: {u}"),
+                        (d, u) => format!("{d} (unit: {u})"),
+                    };
+                    if !about.is_empty() {
+                        label = label.on_hover_text(about);
+                    }
                     let (lo, hi) = setting.slider_range();
                     let mut v = p.value;
                     let slider = ui

@@ -224,8 +224,12 @@ impl TimeSeriesPanel {
             for (seed, orbit) in &orbits {
                 let colour = style::orbit_colour(seed.id);
                 for (k, name, line_style) in [
-                    (0, xn, LineStyle::Solid),
-                    (1, yn, LineStyle::Dashed { length: 8.0 }),
+                    (0, xn.clone(), LineStyle::Solid),
+                    (
+                        1,
+                        format!("{yn} (dashed)"),
+                        LineStyle::Dashed { length: 8.0 },
+                    ),
                 ] {
                     let pts: Vec<[f64; 2]> = orbit
                         .times
