@@ -3,7 +3,7 @@
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 
-use egui::{Key, KeyboardShortcut, Modifiers, Panel, Ui};
+use egui::{Key, KeyboardShortcut, Modifiers, Panel, RichText, Ui};
 use quarry_core::library::{BUILTINS, default_model};
 use quarry_core::model::{Model, ModelError, ModelSpec, Window};
 use quarry_core::scenario::{Scenario as ScenarioFile, default_scenario};
@@ -15,13 +15,14 @@ use crate::document::{Document, RecentFiles, Recovery, find_recovery, state_dir}
 use crate::editor::ModelEditor;
 use crate::equilibria::EquilibriaPanel;
 use crate::files::{FileAction, FileWindow, FileWindowOutcome, GuardAnswer, Pending};
+use crate::harvest_panel::HarvestPanel;
 use crate::help::HelpPanel;
 use crate::history::History;
 use crate::layers::LayersPanel;
 use crate::orbits::OrbitsPanel;
 use crate::params::ParamsPanel;
 use crate::plane::{PlanePanel, PlaneView};
-use crate::scenario::{LayerSwitch, Scenario};
+use crate::scenario::{LayerSwitch, Scenario, compile_harvested};
 use crate::status::{StatusBar, StatusState};
 use crate::timeseries::{Player, TimeSeriesPanel, selected_orbits, time_span};
 use crate::toolbar::{OpenPanels, Toolbar, ToolbarState};
@@ -84,6 +85,9 @@ pub struct QuarryApp {
     /// Orbits selected for the time series and playback, by seed id.
     selection: Vec<u64>,
     player: Player,
+    harvest: HarvestPanel,
+    /// Why the last harvest change could not be applied.
+    harvest_error: Option<String>,
 }
 
 impl QuarryApp {
@@ -129,7 +133,7 @@ impl QuarryApp {
         scenes: SceneSource,
         state_dir: Option<PathBuf>,
     ) -> Self {
-        let (scenario, model, notice) = match Model::new(&scenario.spec) {
+        let (scenario, model, notice) = match scenario.compile() {
             Ok(model) => (scenario, model, None),
             Err(e) => {
                 let fallback = default_model();
@@ -170,6 +174,8 @@ impl QuarryApp {
             timeseries: TimeSeriesPanel::default(),
             selection: Vec::new(),
             player: Player::default(),
+            harvest: HarvestPanel,
+            harvest_error: None,
         };
         app.select_all();
         app.request_scene();
@@ -331,6 +337,18 @@ impl QuarryApp {
                         ui.separator();
                         self.layers
                             .ui(ui, &self.scenario, self.model.has_invariant(), &mut out);
+                        ui.separator();
+                        egui::CollapsingHeader::new(RichText::new("Harvest").heading())
+                            .default_open(self.scenario.harvest.is_active())
+                            .show(ui, |ui| {
+                                self.harvest.ui(
+                                    ui,
+                                    &self.scenario,
+                                    scene,
+                                    self.harvest_error.as_deref(),
+                                    &mut out,
+                                );
+                            });
                         ui.separator();
                         self.orbits
                             .ui(ui, &self.scenario, scene, &self.selection, busy, &mut out);
@@ -559,7 +577,7 @@ impl QuarryApp {
     fn start_new(&mut self) {
         let file = default_scenario();
         let scenario = Scenario::from_file(&file);
-        let Ok(model) = Model::new(&scenario.spec) else {
+        let Ok(model) = scenario.compile() else {
             return;
         };
         self.install(scenario, model, None);
@@ -769,7 +787,7 @@ impl QuarryApp {
     /// Puts back a snapshot from the history, keeping the view settings (layers, the
     /// direction of new orbits) as they are now.
     fn restore(&mut self, mut snapshot: Scenario) {
-        let Ok(model) = Model::new(&snapshot.spec) else {
+        let Ok(model) = snapshot.compile() else {
             return;
         };
         snapshot.layers = self.scenario.layers;
@@ -784,7 +802,7 @@ impl QuarryApp {
 
     /// Replaces the model with a spec that compiles; false (and no change) when it does not.
     fn replace_model(&mut self, spec: ModelSpec) -> bool {
-        let Ok(model) = Model::new(&spec) else {
+        let Ok(model) = compile_harvested(&spec, &self.scenario.harvest) else {
             return false;
         };
         if spec.window != self.scenario.spec.window {
@@ -793,6 +811,48 @@ impl QuarryApp {
         self.scenario.replace_model(spec);
         self.model = model;
         true
+    }
+
+    /// Changes the harvest. A change of numbers only sets the harvested model's parameters
+    /// (no recompiling while a number is dragged); a change of rule recompiles. A harvest
+    /// that cannot be applied is refused with its reason, and the last one stays.
+    fn set_harvest(&mut self, h: quarry_core::harvest::Harvest) -> bool {
+        use quarry_core::harvest::HarvestRule;
+        if h == self.scenario.harvest {
+            return false;
+        }
+        let shape = |r: &HarvestRule| {
+            (
+                std::mem::discriminant(r),
+                matches!(r, HarvestRule::Quota { taper: Some(_), .. }),
+            )
+        };
+        let old = &self.scenario.harvest;
+        let same_shape = (0..2).all(|i| shape(&h.rules[i]) == shape(&old.rules[i]));
+        if same_shape
+            && h.is_active()
+            && let Ok(spec) = h.apply(&self.scenario.spec)
+            && spec
+                .parameters
+                .iter()
+                .all(|p| self.model.set_param(&p.name, p.value).is_ok())
+        {
+            self.scenario.harvest = h;
+            self.harvest_error = None;
+            return true;
+        }
+        match compile_harvested(&self.scenario.spec, &h) {
+            Ok(model) => {
+                self.scenario.harvest = h;
+                self.model = model;
+                self.harvest_error = None;
+                true
+            }
+            Err(e) => {
+                self.harvest_error = Some(e);
+                false
+            }
+        }
     }
 
     fn set_param(&mut self, index: usize, value: f64) -> bool {
@@ -823,10 +883,10 @@ impl QuarryApp {
                     return false;
                 };
                 let spec = builtin.spec();
-                let Ok(model) = Model::new(&spec) else {
+                let mut fresh = Scenario::new(spec);
+                let Ok(model) = fresh.compile() else {
                     return false;
                 };
-                let mut fresh = Scenario::new(spec);
                 fresh.layers = self.scenario.layers;
                 fresh.new_orbit_direction = self.scenario.new_orbit_direction;
                 fresh.next_seed_id = self.scenario.next_seed_id;
@@ -837,6 +897,7 @@ impl QuarryApp {
                 true
             }
             Command::SetParam { index, value } => self.set_param(*index, *value),
+            Command::SetHarvest(h) => self.set_harvest(*h),
             Command::ResetParam(index) => {
                 let Some(d) = self.scenario.params.get(*index).map(|s| s.default) else {
                     return false;

@@ -6,6 +6,7 @@
 
 use std::path::PathBuf;
 
+use quarry_core::harvest::Harvest;
 use quarry_core::model::ModelSpec;
 use quarry_core::scene::TimeDirection;
 
@@ -97,6 +98,8 @@ pub enum Command {
     SetPlaybackSpeed(f64),
     /// Whether playback starts again at the end.
     SetPlaybackLoop(bool),
+    /// Change the harvest rules or their economics.
+    SetHarvest(Harvest),
 }
 
 /// Panels that can be opened and closed.
@@ -123,6 +126,8 @@ pub enum MergeKey {
     Editor,
     /// Dragging one orbit's start point.
     Orbit(u64),
+    /// Dragging or typing a harvest number.
+    Harvest,
 }
 
 impl Command {
@@ -144,6 +149,7 @@ impl Command {
                 | Command::SetOrbitTime(_)
                 | Command::UseViewAsWindow(_)
                 | Command::MoveOrbit(..)
+                | Command::SetHarvest(_)
         )
     }
 
@@ -153,6 +159,7 @@ impl Command {
             Command::SetParam { index, .. } => Some(MergeKey::Param(*index)),
             Command::EditModel(_) => Some(MergeKey::Editor),
             Command::MoveOrbit(id, _) => Some(MergeKey::Orbit(*id)),
+            Command::SetHarvest(_) => Some(MergeKey::Harvest),
             _ => None,
         }
     }

@@ -12,6 +12,7 @@ pub mod document;
 pub mod editor;
 pub mod equilibria;
 pub mod files;
+pub mod harvest_panel;
 pub mod help;
 pub mod history;
 pub mod layers;

@@ -3,6 +3,7 @@
 //! This is the state that undo/redo snapshots and that a saved session would hold. Scenes,
 //! the compiled model and everything else rebuilt from it live elsewhere, as caches.
 
+use quarry_core::harvest::Harvest;
 use quarry_core::model::{Model, ModelSpec};
 use quarry_core::scenario::{
     self as file, Direction, ParameterDef, Playback, SCENARIO_VERSION, Scenario as ScenarioFile,
@@ -198,6 +199,18 @@ pub struct Scenario {
     pub variable_info: [VariableInfo; 2],
     /// Playback speed and looping.
     pub playback: Playback,
+    /// How each species is harvested; added to the rates of everything computed.
+    pub harvest: Harvest,
+}
+
+/// The model that is analysed: `spec` with the harvest's catch terms subtracted from the
+/// rates (and its numbers as extra parameters), compiled.
+pub fn compile_harvested(spec: &ModelSpec, harvest: &Harvest) -> Result<Model, String> {
+    if !harvest.is_active() {
+        return Model::new(spec).map_err(|e| e.to_string());
+    }
+    let harvested = harvest.apply(spec).map_err(|e| e.to_string())?;
+    Model::new(&harvested).map_err(|e| e.to_string())
 }
 
 /// What a scenario says about a variable besides its name.
@@ -244,7 +257,13 @@ impl Scenario {
             notes: String::new(),
             variable_info: Default::default(),
             playback: Playback::default(),
+            harvest: Harvest::default(),
         }
+    }
+
+    /// The model that is analysed (see [`compile_harvested`]).
+    pub fn compile(&self) -> Result<Model, String> {
+        compile_harvested(&self.spec, &self.harvest)
     }
 
     /// The app's scenario from a scenario file (already validated by reading it).
@@ -283,7 +302,10 @@ impl Scenario {
     pub fn from_ron(text: &str) -> Result<(Self, Model), ScenarioError> {
         let f = ScenarioFile::from_ron(text)?;
         let s = Self::from_file(&f);
-        let model = Model::new(&s.spec)?;
+        let model = s.compile().map_err(|message| ScenarioError::Invalid {
+            field: "harvest".into(),
+            message,
+        })?;
         Ok((s, model))
     }
 

@@ -329,3 +329,44 @@ fn the_linearisation_layer_draws_the_linear_solution_and_compares_periods() {
     );
     h.get_by_label_contains("linearisation: period 2π/ω");
 }
+
+#[test]
+fn fishing_the_prey_moves_the_equilibrium_and_the_panel_shows_the_catch_with_the_caution() {
+    use quarry_core::harvest::{Harvest, HarvestRule};
+    let mut h = lotka_volterra();
+    let mut harvest = Harvest::default();
+    harvest.rules[0] = HarvestRule::Proportional {
+        effort: 0.25,
+        catchability: 1.0,
+    };
+    h.state_mut()
+        .apply(quarry_app::command::Command::SetHarvest(harvest));
+    h.run();
+    // dx/dt = a·x − α·x·y − E·x: y* = (a − E)/α = 0.75/0.1 = 7.5, x* = c/γ = 20 (common
+    // practice: the prey's nullcline moves down by E/α).
+    let [x, y] = coexistence(&h);
+    assert!(
+        (x - 20.0).abs() < 1e-9 && (y - 7.5).abs() < 1e-9,
+        "{x}, {y}"
+    );
+    h.get_by_label("Harvest").click();
+    h.run();
+    h.get_by_label(quarry_core::harvest::CAUTION);
+    // The harvested Lotka–Volterra equilibrium is still a centre: no steady catch to quote.
+    h.get_by_label_contains("No stable equilibrium");
+    // Dragging the effort is a parameter change of the compiled model, not a new model.
+    harvest.rules[0] = HarvestRule::Proportional {
+        effort: 0.5,
+        catchability: 1.0,
+    };
+    h.state_mut()
+        .apply(quarry_app::command::Command::SetHarvest(harvest));
+    h.run();
+    let [_, y] = coexistence(&h);
+    assert!((y - 5.0).abs() < 1e-9, "{y}");
+    // One undo step for the whole harvest edit.
+    h.key_press_modifiers(Modifiers::COMMAND, egui::Key::Z);
+    h.run();
+    let [_, y] = coexistence(&h);
+    assert!((y - 10.0).abs() < 1e-9, "{y}");
+}

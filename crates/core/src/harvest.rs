@@ -137,6 +137,53 @@ impl Harvest {
         Ok(out)
     }
 
+    /// The catch rate of each species at a state, evaluated directly from the rules (the
+    /// same functions [`Harvest::catch_term`] writes as formulas). `window` sets the quota
+    /// rule's default taper, as in [`Harvest::apply`].
+    pub fn catch_at(&self, window: &crate::model::Window, state: [f64; 2]) -> [f64; 2] {
+        let mut out = [0.0; 2];
+        for (i, rule) in self.rules.iter().enumerate() {
+            let x = state[i];
+            let width = if i == 0 {
+                window.width()
+            } else {
+                window.height()
+            };
+            out[i] = match *rule {
+                HarvestRule::None => 0.0,
+                HarvestRule::Proportional {
+                    effort,
+                    catchability,
+                } => catchability * effort * x,
+                HarvestRule::Quota { quota, taper } => {
+                    let s = taper.unwrap_or(QUOTA_TAPER_FRACTION * width);
+                    quota * (1.0 - (-x / s).exp())
+                }
+                HarvestRule::Threshold {
+                    lower,
+                    upper,
+                    target_rate,
+                } => target_rate * ((x - lower) / (upper - lower)).clamp(0.0, 1.0) * x,
+            };
+        }
+        out
+    }
+
+    /// Revenue less cost per unit time for a catch rate: price × catch − cost × effort,
+    /// summed over the species (effort counts for the proportional rule only).
+    pub fn profit(&self, catch: [f64; 2]) -> f64 {
+        (0..2)
+            .map(|i| {
+                let e = &self.economics[i];
+                let effort = match self.rules[i] {
+                    HarvestRule::Proportional { effort, .. } => effort,
+                    _ => 0.0,
+                };
+                e.price * catch[i] - e.cost_per_effort * effort
+            })
+            .sum()
+    }
+
     /// The catch formula of species `i` and the parameters it needs, or `None` if unharvested.
     ///
     /// The default quota taper is [`QUOTA_TAPER_FRACTION`] × the window's extent along that
@@ -319,4 +366,70 @@ pub fn yield_along(
         mean_profit: profit,
         span: span_end,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::Model;
+
+    #[test]
+    fn catch_at_is_what_the_harvested_rates_take_away() {
+        let spec = crate::library::default_model();
+        let base = Model::new(&spec).expect("compiles");
+        let rules = [
+            HarvestRule::Proportional {
+                effort: 0.4,
+                catchability: 0.5,
+            },
+            HarvestRule::Quota {
+                quota: 2.0,
+                taper: None,
+            },
+            HarvestRule::Threshold {
+                lower: 5.0,
+                upper: 25.0,
+                target_rate: 0.3,
+            },
+        ];
+        for (a, b) in rules.iter().zip(rules.iter().rev()) {
+            let h = Harvest {
+                rules: [*a, *b],
+                economics: Default::default(),
+            };
+            let harvested = Model::new(&h.apply(&spec).expect("applies")).expect("compiles");
+            for state in [[0.01, 3.0], [4.0, 0.02], [12.0, 30.0], [40.0, 8.0]] {
+                let [u0, v0] = base.rates(state[0], state[1]);
+                let [u1, v1] = harvested.rates(state[0], state[1]);
+                let c = h.catch_at(&spec.window, state);
+                for (taken, c) in [(u0 - u1, c[0]), (v0 - v1, c[1])] {
+                    assert!(
+                        (taken - c).abs() <= 1e-12 * (1.0 + c.abs()),
+                        "{a:?}/{b:?} at {state:?}: {taken} vs {c}"
+                    );
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn profit_is_revenue_less_the_cost_of_effort() {
+        let h = Harvest {
+            rules: [
+                HarvestRule::Proportional {
+                    effort: 2.0,
+                    catchability: 0.1,
+                },
+                HarvestRule::None,
+            ],
+            economics: [
+                Economics {
+                    price: 3.0,
+                    cost_per_effort: 0.5,
+                },
+                Economics::default(),
+            ],
+        };
+        assert_eq!(h.profit([4.0, 0.0]), 3.0 * 4.0 - 0.5 * 2.0);
+    }
 }
