@@ -24,6 +24,7 @@ use crate::params::ParamsPanel;
 use crate::plane::{PlanePanel, PlaneView};
 use crate::scenario::{LayerSwitch, Scenario, compile_harvested};
 use crate::status::{StatusBar, StatusState};
+use crate::sweep_view::SweepView;
 use crate::timeseries::{Player, TimeSeriesPanel, selected_orbits, time_span};
 use crate::toolbar::{OpenPanels, Toolbar, ToolbarState};
 use crate::worker::SceneSource;
@@ -88,6 +89,9 @@ pub struct QuarryApp {
     harvest: HarvestPanel,
     /// Why the last harvest change could not be applied.
     harvest_error: Option<String>,
+    sweep: SweepView,
+    /// Where long jobs repaint; `None` runs them in place (tests).
+    jobs_ctx: Option<egui::Context>,
 }
 
 impl QuarryApp {
@@ -103,6 +107,7 @@ impl QuarryApp {
             dir,
         );
         app.native_dialogs = true;
+        app.jobs_ctx = Some(ctx.clone());
         app
     }
 
@@ -176,6 +181,8 @@ impl QuarryApp {
             player: Player::default(),
             harvest: HarvestPanel,
             harvest_error: None,
+            sweep: SweepView::default(),
+            jobs_ctx: None,
         };
         app.select_all();
         app.request_scene();
@@ -265,6 +272,11 @@ impl QuarryApp {
                 .into_iter()
                 .map(|(_, o)| o),
         )
+    }
+
+    /// The sweep view (its settings and last result).
+    pub fn sweep_view(&mut self) -> &mut SweepView {
+        &mut self.sweep
     }
 
     /// The message of the last file operation or start-up problem.
@@ -419,6 +431,23 @@ impl QuarryApp {
             .show(&ctx, |ui| self.cautions.ui(ui));
         if open != self.panels.cautions {
             out.push(Command::ShowPanel(PanelKind::Cautions, open));
+        }
+        let mut open = self.panels.sweep;
+        egui::Window::new("Parameter sweep")
+            .open(&mut open)
+            .default_size([640.0, 520.0])
+            .resizable(true)
+            .show(&ctx, |ui| {
+                self.sweep.ui(
+                    ui,
+                    &self.scenario,
+                    &self.model,
+                    self.jobs_ctx.clone(),
+                    &mut out,
+                );
+            });
+        if open != self.panels.sweep {
+            out.push(Command::ShowPanel(PanelKind::Sweep, open));
         }
         let mut open = self.panels.help;
         egui::Window::new("Help")

@@ -115,6 +115,8 @@ pub enum PanelKind {
     Help,
     /// Both variables against time.
     TimeSeries,
+    /// The parameter sweep.
+    Sweep,
 }
 
 /// Which consecutive changes merge into one undo step.

@@ -257,3 +257,67 @@ fn equilibrium_catch_ui(ui: &mut Ui, scenario: &Scenario, h: &Harvest, scene: Op
         ui.label(text);
     }
 }
+
+/// The harvest with one of its numbers changed, by the parameter name the harvested model
+/// gives it (`E_x`, `q_x`, `H_x`, `Blim_x`, `Btrig_x`, `F_x` for species `x`). `None` when the
+/// name is not one of the harvest's.
+pub fn with_param(h: Harvest, variables: &[String; 2], name: &str, value: f64) -> Option<Harvest> {
+    let (base, var) = name.split_once('_')?;
+    let i = variables.iter().position(|v| v == var)?;
+    let mut out = h;
+    let rule = &mut out.rules[i];
+    match (base, rule) {
+        ("E", HarvestRule::Proportional { effort, .. }) => *effort = value,
+        ("q", HarvestRule::Proportional { catchability, .. }) => *catchability = value,
+        ("H", HarvestRule::Quota { quota, .. }) => *quota = value,
+        ("s", HarvestRule::Quota { taper, .. }) => *taper = Some(value),
+        ("Blim", HarvestRule::Threshold { lower, .. }) => *lower = value,
+        ("Btrig", HarvestRule::Threshold { upper, .. }) => *upper = value,
+        ("F", HarvestRule::Threshold { target_rate, .. }) => *target_rate = value,
+        _ => return None,
+    }
+    Some(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn harvest_numbers_are_found_by_the_names_the_harvested_model_gives_them() {
+        let vars = ["cod".to_owned(), "seal".to_owned()];
+        let mut h = Harvest::default();
+        h.rules[0] = fresh_rule(1, 10.0);
+        h.rules[1] = fresh_rule(2, 10.0);
+        let spec = quarry_core::model::ModelSpec {
+            variables: vars.clone(),
+            ..quarry_core::library::default_model()
+        };
+        let spec = quarry_core::model::ModelSpec {
+            rates: ["cod".into(), "seal".into()],
+            ..spec
+        };
+        // Every parameter the harvest adds can be set back through its name.
+        for p in h
+            .apply(&spec)
+            .expect("applies")
+            .parameters
+            .iter()
+            .skip(spec.parameters.len())
+        {
+            let changed = with_param(h, &vars, &p.name, p.value + 1.0).expect(&p.name);
+            let again = changed.apply(&spec).expect("applies");
+            let q = again
+                .parameters
+                .iter()
+                .find(|q| q.name == p.name)
+                .expect("kept");
+            assert_eq!(q.value, p.value + 1.0, "{}", p.name);
+        }
+        assert!(
+            with_param(h, &vars, "E_seal", 1.0).is_none(),
+            "seal has a quota"
+        );
+        assert!(with_param(h, &vars, "alpha", 1.0).is_none());
+    }
+}

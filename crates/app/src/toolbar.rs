@@ -22,6 +22,8 @@ pub struct OpenPanels {
     pub help: bool,
     /// The time series under the plane.
     pub time_series: bool,
+    /// The parameter sweep window.
+    pub sweep: bool,
 }
 
 impl Default for OpenPanels {
@@ -32,6 +34,7 @@ impl Default for OpenPanels {
             cautions: false,
             help: false,
             time_series: true,
+            sweep: false,
         }
     }
 }
@@ -45,6 +48,7 @@ impl OpenPanels {
             PanelKind::Cautions => self.cautions,
             PanelKind::Help => self.help,
             PanelKind::TimeSeries => self.time_series,
+            PanelKind::Sweep => self.sweep,
         }
     }
 
@@ -56,6 +60,7 @@ impl OpenPanels {
             PanelKind::Cautions => self.cautions = open,
             PanelKind::Help => self.help = open,
             PanelKind::TimeSeries => self.time_series = open,
+            PanelKind::Sweep => self.sweep = open,
         }
     }
 }
@@ -186,6 +191,11 @@ impl Toolbar {
                     PanelKind::TimeSeries,
                     "Time series",
                     "Both variables against time, with playback",
+                ),
+                (
+                    PanelKind::Sweep,
+                    "Sweep",
+                    "Equilibria and bifurcations over a range of one parameter",
                 ),
                 (
                     PanelKind::Equilibria,

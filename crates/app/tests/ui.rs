@@ -370,3 +370,49 @@ fn fishing_the_prey_moves_the_equilibrium_and_the_panel_shows_the_catch_with_the
     let [_, y] = coexistence(&h);
     assert!((y - 10.0).abs() < 1e-9, "{y}");
 }
+
+#[test]
+fn a_sweep_finds_the_hopf_point_and_set_puts_it_in_the_plane() {
+    let spec = quarry_core::library::builtin("holling-ii")
+        .expect("built-in")
+        .spec();
+    let mut h = harness(QuarryApp::new_synchronous(spec));
+    h.get_by_label("Sweep").click();
+    h.run();
+    {
+        let view = h.state_mut().sweep_view();
+        view.param = "K".into();
+        view.from = 1.0;
+        view.to = 8.0;
+        view.steps = 141;
+    }
+    h.get_by_label("Run sweep").click();
+    h.run();
+    h.run();
+    let hopf = h
+        .state_mut()
+        .sweep_view()
+        .result()
+        .expect("a sweep")
+        .bifurcations
+        .iter()
+        .find(|b| b.kind == quarry_core::sweep::BifurcationKind::Hopf)
+        .copied()
+        .expect("a Hopf point");
+    // Rosenzweig–MacArthur: K_H = 2x* + 1/(a·h) with x* = m/(a(b − m·h)) = 0.5, so K_H = 3
+    // (Rosenzweig 1971).
+    assert!((hopf.value - 3.0).abs() < 1e-7, "{}", hopf.value);
+    // In the diagram's legend and in the list of bifurcations.
+    assert_eq!(h.get_all_by_label("Hopf").count(), 2);
+    h.get_by_label("Set").click();
+    h.run();
+    let k = h
+        .state()
+        .scenario()
+        .spec
+        .parameters
+        .iter()
+        .find(|p| p.name == "K")
+        .expect("K");
+    assert_eq!(k.value, hopf.value);
+}
