@@ -13,9 +13,8 @@ use crate::model_args::{ModelArgs, parse_list, parse_number};
 /// Largest figure side in pixels.
 const MAX_SIDE: u32 = 16384;
 
-/// The caution printed under every figure.
-pub const CAUTION: &str = "Simplified model for illustration, not a stock assessment; \
-decisions rest on assessed data, local regulations and qualified scientific advice.";
+/// The caution printed under every figure (shared with the app's export).
+pub use quarry_figure::CAUTION;
 
 /// How the flow is shown.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]

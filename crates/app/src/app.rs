@@ -14,6 +14,7 @@ use crate::command::{Command, PanelKind};
 use crate::document::{Document, RecentFiles, Recovery, find_recovery, state_dir};
 use crate::editor::ModelEditor;
 use crate::equilibria::EquilibriaPanel;
+use crate::export::{ExportKind, ExportOutcome, ExportRequest, ExportWindow};
 use crate::files::{FileAction, FileWindow, FileWindowOutcome, GuardAnswer, Pending};
 use crate::harvest_panel::HarvestPanel;
 use crate::help::HelpPanel;
@@ -90,6 +91,8 @@ pub struct QuarryApp {
     /// Why the last harvest change could not be applied.
     harvest_error: Option<String>,
     sweep: SweepView,
+    /// The export window, when shown.
+    export_window: Option<ExportWindow>,
     /// Where long jobs repaint; `None` runs them in place (tests).
     jobs_ctx: Option<egui::Context>,
 }
@@ -182,6 +185,7 @@ impl QuarryApp {
             harvest: HarvestPanel,
             harvest_error: None,
             sweep: SweepView::default(),
+            export_window: None,
             jobs_ctx: None,
         };
         app.select_all();
@@ -534,6 +538,24 @@ impl QuarryApp {
             }
             return;
         }
+        if let Some(window) = &mut self.export_window {
+            let mut open = true;
+            let mut outcome = ExportOutcome::Open;
+            egui::Window::new(format!(
+                "Export: {}",
+                window.kind.label().trim_end_matches('…')
+            ))
+            .collapsible(false)
+            .resizable(false)
+            .open(&mut open)
+            .show(ctx, |ui| outcome = window.ui(ui, self.native_dialogs));
+            match outcome {
+                ExportOutcome::Confirm(r) => out.push(Command::Export(r)),
+                ExportOutcome::Cancel => self.export_window = None,
+                ExportOutcome::Open if !open => self.export_window = None,
+                ExportOutcome::Open => {}
+            }
+        }
         let Some(window) = &mut self.file_window else {
             return;
         };
@@ -684,6 +706,59 @@ impl QuarryApp {
         }
     }
 
+    /// Writes an export atomically; the message says what went wrong and where.
+    fn export(&self, request: &ExportRequest) -> Result<(), String> {
+        let format = request.format()?;
+        let bytes = self.export_bytes(request, format)?;
+        quarry_core::scenario::write_atomically(&request.path, &bytes).map_err(|e| e.to_string())
+    }
+
+    /// The bytes of an export in `format` (`png`, `svg`, `csv` or `html`).
+    fn export_bytes(&self, request: &ExportRequest, format: &str) -> Result<Vec<u8>, String> {
+        let scene = self
+            .scene()
+            .ok_or("The scene is still being computed; try again in a moment.")?;
+        let [width, height] = request.size;
+        let svg = match request.kind {
+            ExportKind::PlaneFigure => {
+                let mut scene = scene.clone();
+                let shown: Vec<[f64; 2]> = self
+                    .scenario
+                    .seeds
+                    .iter()
+                    .filter(|s| s.visible)
+                    .map(|s| s.at)
+                    .collect();
+                scene.orbits.retain(|o| shown.contains(&o.seed));
+                let l = self.scenario.layers;
+                let opts = quarry_figure::FigureOptions {
+                    width,
+                    height,
+                    title: Some(self.scenario.spec.name.clone()),
+                    show_field: l.field,
+                    show_streamlines: l.streamlines,
+                    show_nullclines: l.nullclines,
+                    show_separatrices: l.separatrices,
+                    show_contours: l.contours,
+                    show_orbits: l.orbits,
+                    show_legend: true,
+                    caption: Some(quarry_figure::CAUTION.to_owned()),
+                };
+                quarry_figure::render_svg(&scene, &opts)
+            }
+            other => {
+                return Err(format!(
+                    "{} is not available in this build yet",
+                    other.label().trim_end_matches('…')
+                ));
+            }
+        };
+        match format {
+            "svg" => Ok(svg.into_bytes()),
+            _ => quarry_figure::svg_to_png(&svg, width, height).map_err(|e| e.to_string()),
+        }
+    }
+
     /// Runs an action that would drop unsaved changes, asking first when there are some.
     fn guarded(&mut self, action: Pending) {
         if self.is_dirty() {
@@ -789,6 +864,20 @@ impl QuarryApp {
                 self.carry_out(next);
             }
             Command::ShowFileWindow(action) => self.open_file_window(action),
+            Command::ShowExport(kind) => {
+                let dir = self.document.path.as_deref().and_then(Path::parent);
+                self.export_window = Some(ExportWindow::new(kind, dir));
+            }
+            Command::Export(request) => match self.export(&request) {
+                Ok(()) => {
+                    self.notice = Some(format!("Exported {}", request.path.display()));
+                    self.export_window = None;
+                }
+                Err(e) => match &mut self.export_window {
+                    Some(w) => w.error = Some(e),
+                    None => self.notice = Some(e),
+                },
+            },
             Command::SelectOrbit { id, toggle } => {
                 if toggle {
                     if let Some(k) = self.selection.iter().position(|s| *s == id) {

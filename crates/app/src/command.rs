@@ -10,6 +10,7 @@ use quarry_core::harvest::Harvest;
 use quarry_core::model::ModelSpec;
 use quarry_core::scene::TimeDirection;
 
+use crate::export::{ExportKind, ExportRequest};
 use crate::files::FileAction;
 use crate::scenario::Layer;
 
@@ -100,6 +101,10 @@ pub enum Command {
     SetPlaybackLoop(bool),
     /// Change the harvest rules or their economics.
     SetHarvest(Harvest),
+    /// Show the export window for a kind of export.
+    ShowExport(ExportKind),
+    /// Write an export.
+    Export(ExportRequest),
 }
 
 /// Panels that can be opened and closed.

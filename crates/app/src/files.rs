@@ -11,6 +11,64 @@ use crate::command::Command;
 use crate::document::Recovery;
 use crate::style;
 
+/// What a native file dialog shows.
+#[derive(Clone, Debug)]
+pub struct DialogSpec {
+    /// The dialog's title.
+    pub title: &'static str,
+    /// The file type offered: a name and its extensions.
+    pub filter: (&'static str, &'static [&'static str]),
+    /// `Some(file name)` for a save dialog, `None` to pick an existing file.
+    pub save_as: Option<String>,
+}
+
+/// Runs the system's file dialog on a thread of its own; the receiver gets the picked path
+/// (or `None` when cancelled or when no dialog service exists).
+pub fn native_dialog(
+    ctx: &egui::Context,
+    spec: DialogSpec,
+    start_dir: Option<PathBuf>,
+) -> Option<Receiver<Option<PathBuf>>> {
+    let (tx, rx) = mpsc::channel();
+    let ctx = ctx.clone();
+    std::thread::Builder::new()
+        .name("quarry-file-dialog".into())
+        .spawn(move || {
+            let mut dialog = rfd::FileDialog::new()
+                .set_title(spec.title)
+                .add_filter(spec.filter.0, spec.filter.1)
+                .add_filter("All files", &["*"]);
+            if let Some(dir) = start_dir {
+                dialog = dialog.set_directory(dir);
+            }
+            let picked = match spec.save_as {
+                Some(name) => dialog.set_file_name(name).save_file(),
+                None => dialog.pick_file(),
+            };
+            let _ = tx.send(picked);
+            ctx.request_repaint();
+        })
+        .ok()?;
+    Some(rx)
+}
+
+/// A path picked by a native dialog, once it is there: `Some(Some(path))` picked,
+/// `Some(None)` cancelled or unavailable, `None` still open.
+pub fn poll_native(native: &mut Option<Receiver<Option<PathBuf>>>) -> Option<Option<PathBuf>> {
+    let rx = native.as_ref()?;
+    match rx.try_recv() {
+        Ok(picked) => {
+            *native = None;
+            Some(picked)
+        }
+        Err(mpsc::TryRecvError::Disconnected) => {
+            *native = None;
+            Some(None)
+        }
+        Err(mpsc::TryRecvError::Empty) => None,
+    }
+}
+
 /// What a file window is for.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum FileAction {
@@ -94,31 +152,19 @@ impl FileWindow {
         if self.native.is_some() {
             return;
         }
-        let (tx, rx) = mpsc::channel();
-        let action = self.action;
-        let ctx = ctx.clone();
-        let spawned = std::thread::Builder::new()
-            .name("quarry-file-dialog".into())
-            .spawn(move || {
-                let mut dialog = rfd::FileDialog::new()
-                    .add_filter("Quarry scenario", &["ron"])
-                    .add_filter("All files", &["*"]);
-                if let Some(dir) = start_dir {
-                    dialog = dialog.set_directory(dir);
-                }
-                let picked = match action {
-                    FileAction::Open => dialog.set_title("Open a scenario").pick_file(),
-                    FileAction::SaveAs => dialog
-                        .set_title("Save the scenario as")
-                        .set_file_name("scenario.ron")
-                        .save_file(),
-                };
-                let _ = tx.send(picked);
-                ctx.request_repaint();
-            });
-        if spawned.is_ok() {
-            self.native = Some(rx);
-        }
+        let spec = match self.action {
+            FileAction::Open => DialogSpec {
+                title: "Open a scenario",
+                filter: ("Quarry scenario", &["ron"]),
+                save_as: None,
+            },
+            FileAction::SaveAs => DialogSpec {
+                title: "Save the scenario as",
+                filter: ("Quarry scenario", &["ron"]),
+                save_as: Some("scenario.ron".to_owned()),
+            },
+        };
+        self.native = native_dialog(ctx, spec, start_dir);
     }
 
     /// Draws the window's contents; returns the command to run when the user confirms.
@@ -131,18 +177,9 @@ impl FileWindow {
     ) -> FileWindowOutcome {
         let mut confirmed = false;
         let mut cancelled = false;
-        if let Some(rx) = &self.native {
-            match rx.try_recv() {
-                Ok(picked) => {
-                    self.native = None;
-                    if let Some(p) = picked {
-                        self.path = p.display().to_string();
-                        confirmed = true;
-                    }
-                }
-                Err(mpsc::TryRecvError::Disconnected) => self.native = None,
-                Err(mpsc::TryRecvError::Empty) => {}
-            }
+        if let Some(Some(p)) = poll_native(&mut self.native) {
+            self.path = p.display().to_string();
+            confirmed = true;
         }
         let verb = match self.action {
             FileAction::Open => "Open",

@@ -11,6 +11,7 @@ pub mod command;
 pub mod document;
 pub mod editor;
 pub mod equilibria;
+pub mod export;
 pub mod files;
 pub mod harvest_panel;
 pub mod help;

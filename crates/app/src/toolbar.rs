@@ -6,6 +6,7 @@ use egui::{Button, RichText, Ui};
 use quarry_core::library::BUILTINS;
 
 use crate::command::{Command, PanelKind};
+use crate::export::ExportKind;
 use crate::files::FileAction;
 use crate::scenario::Scenario;
 
@@ -130,6 +131,13 @@ impl Toolbar {
                 }
                 if item(ui, "Save as…", "Ctrl+Shift+S") {
                     out.push(Command::ShowFileWindow(FileAction::SaveAs));
+                }
+            });
+            ui.menu_button("Export", |ui| {
+                for kind in ExportKind::ALL {
+                    if ui.button(kind.label()).clicked() {
+                        out.push(Command::ShowExport(kind));
+                    }
                 }
             });
             ui.separator();

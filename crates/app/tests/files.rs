@@ -181,3 +181,67 @@ fn work_left_by_a_crashed_session_is_offered_back() {
     assert!(h.state().is_dirty(), "restored work is not saved yet");
     assert!(!file.exists(), "the recovery file is used up");
 }
+
+/// Width and height from a PNG's header.
+fn png_size(bytes: &[u8]) -> (u32, u32) {
+    assert_eq!(&bytes[1..4], b"PNG", "a PNG");
+    let be = |k: usize| u32::from_be_bytes([bytes[k], bytes[k + 1], bytes[k + 2], bytes[k + 3]]);
+    (be(16), be(20))
+}
+
+#[test]
+fn the_plane_exports_as_png_and_svg_at_the_asked_size() {
+    use quarry_app::export::{ExportKind, ExportRequest};
+    let dir = temp_dir("export");
+    let mut h = harness(QuarryApp::from_file_synchronous(
+        &default_scenario(),
+        None,
+        None,
+    ));
+    h.state_mut().apply(Command::AddOrbit([30.0, 10.0]));
+    h.run();
+    for (name, size) in [("plane.png", [640, 480]), ("plane.svg", [900, 600])] {
+        let path = dir.join(name);
+        h.state_mut().apply(Command::Export(ExportRequest {
+            kind: ExportKind::PlaneFigure,
+            path: path.clone(),
+            size,
+        }));
+        h.run();
+        let bytes = std::fs::read(&path).expect("written");
+        if name.ends_with(".png") {
+            assert_eq!(png_size(&bytes), (640, 480));
+        } else {
+            let text = String::from_utf8(bytes).expect("utf-8");
+            let doc = roxmltree::Document::parse(&text).expect("the SVG parses");
+            let root = doc.root_element();
+            assert_eq!(root.attribute("width"), Some("900"));
+            // The orbit and the caution are in the picture.
+            assert!(text.contains("not a stock assessment"));
+            assert!(
+                doc.descendants()
+                    .filter(|n| n.has_tag_name("path") || n.has_tag_name("polyline"))
+                    .count()
+                    > 10
+            );
+        }
+        assert!(
+            h.state()
+                .notice()
+                .is_some_and(|n| n.starts_with("Exported"))
+        );
+    }
+    // A name without a known extension is refused with what to do.
+    h.state_mut().apply(Command::Export(ExportRequest {
+        kind: ExportKind::PlaneFigure,
+        path: dir.join("plane.jpeg"),
+        size: [100, 100],
+    }));
+    h.run();
+    assert!(
+        h.state()
+            .notice()
+            .is_some_and(|n| n.contains(".png or .svg"))
+    );
+    assert!(!dir.join("plane.jpeg").exists());
+}

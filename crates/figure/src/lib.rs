@@ -34,6 +34,10 @@ use quarry_core::scene::Scene;
 /// Largest width or height (px) of a figure.
 pub const MAX_SIZE: u32 = 16384;
 
+/// The caution printed under every phase-plane figure, from the command line and the app.
+pub const CAUTION: &str = "Simplified model for illustration, not a stock assessment; \
+decisions rest on assessed data, local regulations and qualified scientific advice.";
+
 /// What to draw and how big.
 #[derive(Clone, Debug, PartialEq, Eq)]
 pub struct FigureOptions {
