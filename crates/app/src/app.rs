@@ -439,6 +439,7 @@ impl QuarryApp {
         let mut open = self.panels.sweep;
         egui::Window::new("Parameter sweep")
             .open(&mut open)
+            .default_pos([520.0, 70.0])
             .default_size([640.0, 520.0])
             .resizable(true)
             .show(&ctx, |ui| {

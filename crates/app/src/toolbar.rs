@@ -212,7 +212,7 @@ impl Toolbar {
                 ),
                 (
                     PanelKind::Cautions,
-                    "About the models",
+                    "Cautions",
                     "What these pictures are and are not",
                 ),
                 (
