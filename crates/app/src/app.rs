@@ -366,6 +366,25 @@ impl QuarryApp {
                                 );
                             });
                         ui.separator();
+                        egui::CollapsingHeader::new(RichText::new("Notes").heading())
+                            .default_open(false)
+                            .show(ui, |ui| {
+                                let mut text = self.scenario.notes.clone();
+                                let r = ui.add(
+                                    egui::TextEdit::multiline(&mut text)
+                                        .desired_rows(4)
+                                        .desired_width(f32::INFINITY)
+                                        .hint_text("Free-text notes, saved with the scenario"),
+                                );
+                                crate::style::accessible_name(ui, &r, "scenario notes");
+                                if r.changed() {
+                                    out.push(Command::SetNotes(text));
+                                }
+                                if r.lost_focus() {
+                                    out.push(Command::EndGesture);
+                                }
+                            });
+                        ui.separator();
                         self.orbits
                             .ui(ui, &self.scenario, scene, &self.selection, busy, &mut out);
                     });
@@ -1017,6 +1036,10 @@ impl QuarryApp {
             }
             Command::SetParam { index, value } => self.set_param(*index, *value),
             Command::SetHarvest(h) => self.set_harvest(*h),
+            Command::SetNotes(text) if *text != self.scenario.notes => {
+                self.scenario.notes = text.clone();
+                true
+            }
             Command::ResetParam(index) => {
                 let Some(d) = self.scenario.params.get(*index).map(|s| s.default) else {
                     return false;

@@ -105,6 +105,8 @@ pub enum Command {
     ShowExport(ExportKind),
     /// Write an export.
     Export(ExportRequest),
+    /// Replace the scenario's free-text notes.
+    SetNotes(String),
 }
 
 /// Panels that can be opened and closed.
@@ -135,6 +137,8 @@ pub enum MergeKey {
     Orbit(u64),
     /// Dragging or typing a harvest number.
     Harvest,
+    /// Typing in the notes.
+    Notes,
 }
 
 impl Command {
@@ -157,6 +161,7 @@ impl Command {
                 | Command::UseViewAsWindow(_)
                 | Command::MoveOrbit(..)
                 | Command::SetHarvest(_)
+                | Command::SetNotes(_)
         )
     }
 
@@ -167,6 +172,7 @@ impl Command {
             Command::EditModel(_) => Some(MergeKey::Editor),
             Command::MoveOrbit(id, _) => Some(MergeKey::Orbit(*id)),
             Command::SetHarvest(_) => Some(MergeKey::Harvest),
+            Command::SetNotes(_) => Some(MergeKey::Notes),
             _ => None,
         }
     }
