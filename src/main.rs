@@ -11,6 +11,7 @@ mod output;
 mod render_cmd;
 mod scenario_cmd;
 mod sweep_cmd;
+mod yield_cmd;
 
 use std::process::ExitCode;
 
@@ -40,6 +41,8 @@ enum Command {
     Orbit(orbit_cmd::OrbitArgs),
     /// Follow the equilibria along one parameter and locate fold, transcritical and Hopf points.
     Sweep(sweep_cmd::SweepArgs),
+    /// Equilibrium catch against effort or quota: MSY, collapse, open access and MEY.
+    Yield(yield_cmd::YieldArgs),
     /// Draw the phase portrait as SVG or PNG.
     Render(render_cmd::RenderArgs),
     /// Check a scenario file: exit 0 when valid, 2 with line, column and field when not.
@@ -105,6 +108,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
         Some(Command::Orbit(args)) => orbit_cmd::run(&args),
         Some(Command::Render(args)) => render_cmd::run(&args),
         Some(Command::Sweep(args)) => sweep_cmd::run(&args),
+        Some(Command::Yield(args)) => yield_cmd::run(&args),
         Some(Command::Check(args)) => scenario_cmd::check(&args),
         Some(Command::Fmt(args)) => scenario_cmd::fmt(&args),
         Some(Command::Models) => {

@@ -1,5 +1,6 @@
-//! Choosing a model on the command line: a built-in (or, later, a scenario file) as the first
-//! argument, or `--var`, `--param` and `--window`; `--set` overrides a parameter.
+//! Choosing a model on the command line: a built-in or a scenario file as the first argument,
+//! or `--var`, `--param` and `--window`; `--set` overrides a parameter. A scenario's harvest
+//! applies unless `--harvest` gives that species another rule (`VAR:none` for none).
 
 use clap::Args;
 use quarry_core::harvest::{Harvest, HarvestRule};
@@ -34,8 +35,9 @@ pub struct ModelArgs {
     #[arg(long, value_name = "XMIN,XMAX,YMIN,YMAX", allow_hyphen_values = true)]
     pub window: Option<String>,
 
-    /// Harvest one species: `VAR:proportional:E=..,q=..`, `VAR:quota:H=..[,s=..]` or
-    /// `VAR:threshold:lower=..,upper=..,rate=..` (repeatable, one per species).
+    /// Harvest one species: `VAR:proportional:E=..,q=..`, `VAR:quota:H=..[,s=..]`,
+    /// `VAR:threshold:lower=..,upper=..,rate=..` or `VAR:none` (repeatable, one per species;
+    /// overrides a scenario file's rule for that species).
     #[arg(long = "harvest", value_name = "VAR:RULE:ARGS")]
     pub harvest: Vec<String>,
 
@@ -103,11 +105,11 @@ impl ModelArgs {
 
     /// The harvested model, the harvest, and the unharvested specification.
     pub fn harvested(&self) -> Result<(Model, Harvest, ModelSpec), Failure> {
-        let mut spec = self.spec()?;
+        let (mut spec, base) = self.spec()?;
         if let Some(h) = &self.invariant {
             spec.invariant = Some(h.clone());
         }
-        let harvest = self.harvest_rules(&spec)?;
+        let harvest = self.harvest_rules(&spec, base)?;
         let applied = harvest
             .apply(&spec)
             .map_err(|e| Failure::Usage(format!("--harvest: {e}")))?;
@@ -115,8 +117,10 @@ impl ModelArgs {
         Ok((model, harvest, spec))
     }
 
-    fn harvest_rules(&self, spec: &ModelSpec) -> Result<Harvest, Failure> {
-        let mut harvest = Harvest::default();
+    /// The harvest: `base` (a scenario's) with the command line's rules and prices on top.
+    fn harvest_rules(&self, spec: &ModelSpec, base: Harvest) -> Result<Harvest, Failure> {
+        let mut harvest = base;
+        let mut given = [false; 2];
         let index = |var: &str, option: &str| {
             spec.variables.iter().position(|v| v == var).ok_or_else(|| {
                 Failure::Usage(format!(
@@ -167,9 +171,10 @@ impl ModelArgs {
                     upper: take(&mut values, "upper")?,
                     target_rate: take(&mut values, "rate")?,
                 },
+                "none" => HarvestRule::None,
                 other => {
                     return Err(Failure::Usage(format!(
-                        "--harvest '{arg}': unknown rule '{other}' (proportional, quota or threshold)"
+                        "--harvest '{arg}': unknown rule '{other}' (proportional, quota, threshold or none)"
                     )));
                 }
             };
@@ -178,11 +183,12 @@ impl ModelArgs {
                     "--harvest '{arg}': the {rule} rule takes no '{extra}'"
                 )));
             }
-            if harvest.rules[i] != HarvestRule::None {
+            if given[i] {
                 return Err(Failure::Usage(format!(
                     "--harvest: {var} is harvested twice"
                 )));
             }
+            given[i] = true;
             harvest.rules[i] = r;
         }
         for (list, option, is_price) in [
@@ -203,7 +209,9 @@ impl ModelArgs {
         Ok(harvest)
     }
 
-    fn spec(&self) -> Result<ModelSpec, Failure> {
+    /// The unharvested model and the scenario file's harvest (none for other sources).
+    fn spec(&self) -> Result<(ModelSpec, Harvest), Failure> {
+        let mut base = Harvest::default();
         let mut spec = match (&self.model, self.vars.is_empty()) {
             (Some(_), false) => {
                 return Err(Failure::Usage(
@@ -211,9 +219,10 @@ impl ModelArgs {
                 ));
             }
             (Some(name), true) if looks_like_file(name) => {
-                Scenario::load(std::path::Path::new(name))
-                    .map_err(|e| Failure::Usage(format!("{name}: {e}")))?
-                    .model_spec()
+                let scenario = Scenario::load(std::path::Path::new(name))
+                    .map_err(|e| Failure::Usage(format!("{name}: {e}")))?;
+                base = scenario.harvest;
+                scenario.model_spec()
             }
             (Some(name), true) => match library::builtin(name) {
                 Some(b) => b.spec(),
@@ -259,7 +268,7 @@ impl ModelArgs {
             spec.window =
                 Window::new(a, b, c, d).map_err(|e| Failure::Usage(format!("--window: {e}")))?;
         }
-        Ok(spec)
+        Ok((spec, base))
     }
 
     fn spec_from_vars(&self) -> Result<ModelSpec, Failure> {

@@ -29,6 +29,7 @@ use crate::sweep_view::SweepView;
 use crate::timeseries::{Player, TimeSeriesPanel, selected_orbits, time_span};
 use crate::toolbar::{OpenPanels, Toolbar, ToolbarState};
 use crate::worker::SceneSource;
+use crate::yield_view::YieldView;
 
 /// The window title: the scenario's title, its file, and whether it has unsaved changes.
 pub fn title_for(spec: &ModelSpec, file: Option<&str>, dirty: bool) -> String {
@@ -91,6 +92,7 @@ pub struct QuarryApp {
     /// Why the last harvest change could not be applied.
     harvest_error: Option<String>,
     sweep: SweepView,
+    yield_view: YieldView,
     /// The export window, when shown.
     export_window: Option<ExportWindow>,
     /// Where long jobs repaint; `None` runs them in place (tests).
@@ -185,6 +187,7 @@ impl QuarryApp {
             harvest: HarvestPanel,
             harvest_error: None,
             sweep: SweepView::default(),
+            yield_view: YieldView::default(),
             export_window: None,
             jobs_ctx: None,
         };
@@ -276,6 +279,11 @@ impl QuarryApp {
                 .into_iter()
                 .map(|(_, o)| o),
         )
+    }
+
+    /// The sustained-yield view (its settings and last curve).
+    pub fn yield_view(&mut self) -> &mut YieldView {
+        &mut self.yield_view
     }
 
     /// The sweep view (its settings and last result).
@@ -472,6 +480,19 @@ impl QuarryApp {
             });
         if open != self.panels.sweep {
             out.push(Command::ShowPanel(PanelKind::Sweep, open));
+        }
+        let mut open = self.panels.yield_curve;
+        egui::Window::new("Sustained yield")
+            .open(&mut open)
+            .default_pos([560.0, 110.0])
+            .default_size([640.0, 540.0])
+            .resizable(true)
+            .show(&ctx, |ui| {
+                self.yield_view
+                    .ui(ui, &self.scenario, self.jobs_ctx.clone(), &mut out);
+            });
+        if open != self.panels.yield_curve {
+            out.push(Command::ShowPanel(PanelKind::Yield, open));
         }
         let mut open = self.panels.help;
         egui::Window::new("Help")
@@ -765,6 +786,42 @@ impl QuarryApp {
                     caption: Some(quarry_figure::CAUTION.to_owned()),
                 };
                 quarry_figure::render_svg(&scene, &opts)
+            }
+            ExportKind::SweepFigure => {
+                let sweep = self
+                    .sweep
+                    .result()
+                    .ok_or("Run a sweep first (Sweep in the toolbar).")?;
+                let [x, y] = self.model.variables();
+                let opts = quarry_figure::SweepFigure {
+                    width,
+                    height,
+                    title: Some(format!(
+                        "{}: equilibria against {}",
+                        self.scenario.spec.name, sweep.param
+                    )),
+                    variable: self.sweep.variable,
+                    variable_names: [x.to_owned(), y.to_owned()],
+                    caption: Some(quarry_figure::CAUTION.to_owned()),
+                    ..quarry_figure::SweepFigure::default()
+                };
+                quarry_figure::render_sweep_svg(sweep, &opts)
+            }
+            ExportKind::YieldFigure => {
+                let curve = self
+                    .yield_view
+                    .result()
+                    .ok_or("Compute a sustained-yield curve first (Yield in the toolbar).")?;
+                let opts = quarry_figure::YieldFigure {
+                    width,
+                    height,
+                    title: Some(format!(
+                        "{}: sustained yield of {}",
+                        self.scenario.spec.name, curve.species
+                    )),
+                    ..quarry_figure::YieldFigure::default()
+                };
+                quarry_figure::render_yield_svg(curve, &opts)
             }
             other => {
                 return Err(format!(

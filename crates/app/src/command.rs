@@ -124,6 +124,8 @@ pub enum PanelKind {
     TimeSeries,
     /// The parameter sweep.
     Sweep,
+    /// The sustained-yield curve.
+    Yield,
 }
 
 /// Which consecutive changes merge into one undo step.

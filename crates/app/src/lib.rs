@@ -28,6 +28,7 @@ pub mod sweep_view;
 pub mod timeseries;
 pub mod toolbar;
 pub mod worker;
+pub mod yield_view;
 
 pub use app::QuarryApp;
 

@@ -295,6 +295,7 @@ impl Scenario {
             description: v.description,
         });
         s.playback = f.playback;
+        s.harvest = f.harvest;
         s
     }
 
@@ -359,6 +360,7 @@ impl Scenario {
                 .collect(),
             orbit_time: self.orbit_time,
             playback: self.playback,
+            harvest: self.harvest,
         }
     }
 

@@ -16,6 +16,8 @@ use crate::style::{self, num};
 
 /// Grid values a new sweep starts with.
 pub const DEFAULT_STEPS: usize = 200;
+/// Limit cycles sampled past each Hopf point for the amplitude curves.
+pub const CYCLE_SAMPLES: usize = 16;
 
 /// How an equilibrium behaves, for the line style of its branch.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -79,6 +81,31 @@ pub fn runs(sweep: &Sweep, variable: usize) -> Vec<Run> {
         out.extend(current);
     }
     out
+}
+
+/// The limit cycles' smallest and largest values of `variable` against the parameter, one
+/// pair of curves per Hopf point, for cycles that attract (`stable`) or repel.
+pub fn cycle_curves(
+    sweep: &Sweep,
+    variable: usize,
+    stable: bool,
+) -> Vec<(Vec<[f64; 2]>, Vec<[f64; 2]>)> {
+    let mut groups: Vec<(f64, Vec<&quarry_core::sweep::CycleSample>)> = Vec::new();
+    for c in sweep.cycles.iter().filter(|c| c.stable == stable) {
+        match groups.iter_mut().find(|(h, _)| *h == c.hopf_value) {
+            Some((_, g)) => g.push(c),
+            None => groups.push((c.hopf_value, vec![c])),
+        }
+    }
+    groups
+        .into_iter()
+        .map(|(_, mut g)| {
+            g.sort_by(|a, b| a.value.total_cmp(&b.value));
+            let min = g.iter().map(|c| [c.value, c.min[variable]]).collect();
+            let max = g.iter().map(|c| [c.value, c.max[variable]]).collect();
+            (min, max)
+        })
+        .collect()
 }
 
 /// What a finished sweep was run on.
@@ -156,7 +183,8 @@ impl SweepView {
 
     /// Starts a sweep of the current settings on `model` (in place when `ctx` is `None`).
     pub fn start(&mut self, model: &Model, ctx: Option<egui::Context>) {
-        let opts = SweepOptions::new(&self.param, self.from, self.to, self.steps);
+        let mut opts = SweepOptions::new(&self.param, self.from, self.to, self.steps);
+        opts.cycle_samples = CYCLE_SAMPLES;
         let model = model.clone();
         self.error = None;
         self.job = Some(Job::start(ctx, move |cancelled, progress| {
@@ -321,6 +349,26 @@ impl SweepView {
                             .style(st)
                             .allow_hover(false),
                     );
+                }
+                for (stable, name, st) in [
+                    (true, "limit cycle min/max (attracting)", LineStyle::Solid),
+                    (
+                        false,
+                        "limit cycle min/max (repelling)",
+                        LineStyle::Dashed { length: 6.0 },
+                    ),
+                ] {
+                    for (min, max) in cycle_curves(sweep, self.variable, stable) {
+                        for pts in [min, max] {
+                            pui.line(
+                                Line::new(name, pts)
+                                    .color(egui::Color32::from_rgb(17, 24, 39))
+                                    .width(1.6)
+                                    .style(st)
+                                    .allow_hover(false),
+                            );
+                        }
+                    }
                 }
                 for kind in [
                     BifurcationKind::Fold,

@@ -25,6 +25,8 @@ pub struct OpenPanels {
     pub time_series: bool,
     /// The parameter sweep window.
     pub sweep: bool,
+    /// The sustained-yield window.
+    pub yield_curve: bool,
 }
 
 impl Default for OpenPanels {
@@ -36,6 +38,7 @@ impl Default for OpenPanels {
             help: false,
             time_series: true,
             sweep: false,
+            yield_curve: false,
         }
     }
 }
@@ -50,6 +53,7 @@ impl OpenPanels {
             PanelKind::Help => self.help,
             PanelKind::TimeSeries => self.time_series,
             PanelKind::Sweep => self.sweep,
+            PanelKind::Yield => self.yield_curve,
         }
     }
 
@@ -62,6 +66,7 @@ impl OpenPanels {
             PanelKind::Help => self.help = open,
             PanelKind::TimeSeries => self.time_series = open,
             PanelKind::Sweep => self.sweep = open,
+            PanelKind::Yield => self.yield_curve = open,
         }
     }
 }
@@ -204,6 +209,11 @@ impl Toolbar {
                     PanelKind::Sweep,
                     "Sweep",
                     "Equilibria and bifurcations over a range of one parameter",
+                ),
+                (
+                    PanelKind::Yield,
+                    "Yield",
+                    "Sustained catch against effort or quota: MSY, collapse, open access, MEY",
                 ),
                 (
                     PanelKind::Equilibria,

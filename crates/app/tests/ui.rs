@@ -416,3 +416,61 @@ fn a_sweep_finds_the_hopf_point_and_set_puts_it_in_the_plane() {
         .expect("K");
     assert_eq!(k.value, hopf.value);
 }
+
+#[test]
+fn the_yield_view_reads_msy_and_collapse_off_the_schaefer_curve() {
+    let spec = quarry_core::library::builtin("schaefer")
+        .expect("built-in")
+        .spec();
+    let mut h = harness(QuarryApp::new_synchronous(spec));
+    // The built-in model fishes with its own E; take that away and fish through the view.
+    h.get_by_label("E value").set_value_accesskit(0.0);
+    h.run();
+    h.get_by_label("Yield").click();
+    h.run();
+    {
+        let view = h.state_mut().yield_view();
+        view.species = 0;
+        view.over_effort = true;
+        view.catchability = 0.01;
+        view.from = 0.0;
+        view.to = 60.0;
+        view.steps = 121;
+    }
+    h.get_by_label("Compute curve").click();
+    h.run();
+    h.run();
+    let curve = h
+        .state_mut()
+        .yield_view()
+        .result()
+        .expect("a curve")
+        .clone();
+    // Schaefer (1954): MSY = rK/4 = 12.5 at E = r/(2q) = 25; the stock collapses at E = r/q = 50.
+    let msy = curve.msy.expect("an MSY");
+    assert!(
+        (msy.catch - 12.5).abs() < 1e-8 && (msy.value - 25.0).abs() < 1e-8,
+        "{msy:?}"
+    );
+    let collapse = curve.collapse.expect("a collapse");
+    assert!((collapse.value - 50.0).abs() < 1e-7, "{collapse:?}");
+    h.get_by_label_contains("Maximum sustainable yield 12.5 at effort 25");
+    h.get_by_label_contains("collapses at effort 50");
+    assert!(h.get_all_by_label(quarry_core::harvest::CAUTION).count() >= 1);
+    // Clicking "set" through the command the plot sends puts the effort into the harvest.
+    let mut harvest = h.state().scenario().harvest;
+    harvest.rules[0] = curve.rule.harvest_rule(msy.value);
+    h.state_mut()
+        .apply(quarry_app::command::Command::SetHarvest(harvest));
+    h.run();
+    let x = h
+        .state()
+        .scene()
+        .expect("scene")
+        .equilibria
+        .iter()
+        .map(|e| e.x)
+        .fold(0.0, f64::max);
+    // x* = K(1 − qE/r) = 50 at E = 25 (Schaefer 1954).
+    assert!((x - 50.0).abs() < 1e-7, "{x}");
+}

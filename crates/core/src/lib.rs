@@ -23,6 +23,7 @@ pub mod scenario;
 pub mod scene;
 pub mod separatrix;
 pub mod streamlines;
+pub mod sustained;
 pub mod sweep;
 #[cfg(test)]
 mod test_support;

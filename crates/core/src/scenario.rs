@@ -14,6 +14,7 @@ use std::path::Path;
 
 use serde::{Deserialize, Serialize};
 
+use crate::harvest::{Harvest, HarvestRule};
 use crate::model::{Model, ModelError, ModelSpec, Parameter, Window};
 
 /// The scenario format this build writes, and the newest it reads.
@@ -210,6 +211,15 @@ pub struct Scenario {
     /// Playback settings.
     #[serde(default)]
     pub playback: Playback,
+    /// Harvest rules and economics, applied on top of the rates (see [`Scenario::analysed_spec`]);
+    /// left out of the file when there is none, so files without harvest read and write as
+    /// before.
+    #[serde(default, skip_serializing_if = "is_no_harvest")]
+    pub harvest: Harvest,
+}
+
+fn is_no_harvest(h: &Harvest) -> bool {
+    *h == Harvest::default()
 }
 
 /// Why a scenario could not be read, checked or saved.
@@ -383,7 +393,50 @@ impl Scenario {
             ));
         }
         Model::new(&self.model_spec())?;
+        self.validate_harvest()?;
+        Model::new(&self.analysed_spec()?)?;
         Ok(())
+    }
+
+    /// Checks the harvest: finite numbers, rules that apply to the model.
+    fn validate_harvest(&self) -> Result<(), ScenarioError> {
+        let invalid = |field: String, message: String| ScenarioError::Invalid { field, message };
+        for (i, e) in self.harvest.economics.iter().enumerate() {
+            for (which, v) in [("price", e.price), ("cost_per_effort", e.cost_per_effort)] {
+                if !(v.is_finite() && v >= 0.0) {
+                    return Err(invalid(
+                        format!("harvest.economics[{i}].{which}"),
+                        format!("must be a finite number ≥ 0, got {v}"),
+                    ));
+                }
+            }
+        }
+        let spec = self.model_spec();
+        for i in 0..2 {
+            if self.harvest.rules[i] == HarvestRule::None {
+                continue;
+            }
+            let mut one = Harvest::default();
+            one.rules[i] = self.harvest.rules[i];
+            one.apply(&spec)
+                .map_err(|e| invalid(format!("harvest.rules[{i}]"), e.to_string()))?;
+        }
+        Ok(())
+    }
+
+    /// The model that is analysed: the rates with the harvest's catch terms subtracted and
+    /// its parameters added ([`Harvest::apply`]); the plain model when nothing is harvested.
+    pub fn analysed_spec(&self) -> Result<ModelSpec, ScenarioError> {
+        let spec = self.model_spec();
+        if !self.harvest.is_active() {
+            return Ok(spec);
+        }
+        self.harvest
+            .apply(&spec)
+            .map_err(|e| ScenarioError::Invalid {
+                field: "harvest".into(),
+                message: e.to_string(),
+            })
     }
 
     /// The model part as a [`ModelSpec`].
@@ -436,6 +489,7 @@ impl Scenario {
             orbits: Vec::new(),
             orbit_time: DEFAULT_ORBIT_TIME,
             playback: Playback::default(),
+            harvest: Harvest::default(),
         }
     }
 }
@@ -493,4 +547,85 @@ pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), ScenarioError> 
         let _ = std::fs::remove_file(&tmp);
     }
     result.map_err(io)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::harvest::Economics;
+
+    fn harvested() -> Scenario {
+        let mut s = Scenario::from_spec(
+            &crate::library::builtin("logistic-prey")
+                .expect("built in")
+                .spec(),
+        );
+        s.harvest.rules[0] = HarvestRule::Quota {
+            quota: 2.5,
+            taper: Some(0.1),
+        };
+        s.harvest.rules[1] = HarvestRule::Proportional {
+            effort: 0.3,
+            catchability: 0.5,
+        };
+        s.harvest.economics[1] = Economics {
+            price: 4.0,
+            cost_per_effort: 1.5,
+        };
+        s
+    }
+
+    #[test]
+    fn a_harvest_round_trips_through_the_file() {
+        let s = harvested();
+        let text = s.to_ron();
+        assert!(
+            text.contains("harvest:") && text.contains("Quota"),
+            "{text}"
+        );
+        let back = Scenario::from_ron(&text).expect("reads back");
+        assert_eq!(back, s);
+        assert_eq!(back.to_ron(), text, "byte-stable");
+        // The analysed model carries both catch terms and their parameters (harvest.rs).
+        let spec = back.analysed_spec().expect("applies");
+        assert!(spec.rates[0].contains("H_x") && spec.rates[1].contains("q_y*E_y*y"));
+        assert!(
+            spec.parameters
+                .iter()
+                .any(|p| p.name == "E_y" && p.value == 0.3)
+        );
+    }
+
+    #[test]
+    fn no_harvest_leaves_the_file_as_it_was() {
+        let s = Scenario::from_spec(&crate::library::default_model());
+        let text = s.to_ron();
+        assert!(!text.contains("harvest"), "{text}");
+        assert_eq!(s.analysed_spec().expect("plain"), s.model_spec());
+    }
+
+    #[test]
+    fn a_bad_harvest_is_refused_with_its_field() {
+        let text = harvested().to_ron();
+        let bad = text.replacen("quota: 2.5", "quota: -2.5", 1);
+        let err = Scenario::from_ron(&bad)
+            .expect_err("a negative quota")
+            .to_string();
+        assert!(
+            err.contains("harvest.rules[0]") && err.contains("quota"),
+            "{err}"
+        );
+        let bad = text.replacen("price: 4.0", "price: inf", 1);
+        let err = Scenario::from_ron(&bad)
+            .expect_err("an infinite price")
+            .to_string();
+        assert!(err.contains("harvest.economics[1].price"), "{err}");
+        let bad = text.replacen("Quota(", "Quoat(", 1);
+        assert!(Scenario::from_ron(&bad).is_err());
+        // A harvest parameter clashing with the model's own.
+        let mut s = harvested();
+        s.parameters[0].name = "H_x".into();
+        s.rates[0] = s.rates[0].replace("r*", "H_x*");
+        assert!(s.validate().is_err());
+    }
 }

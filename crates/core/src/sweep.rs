@@ -22,14 +22,22 @@
 //!
 //! All lengths are measured in scaled units: the window's width and height and the parameter
 //! range each count as one.
+//!
+//! Optionally ([`SweepOptions::cycle_samples`]) the limit cycles born at each Hopf point are
+//! sampled too: at parameter values past the Hopf point, where the equilibrium is an unstable
+//! focus, the cycle around it is located by the return map ([`crate::cycle`]) and its range,
+//! period and stability are recorded; for a subcritical Hopf point, where no cycle surrounds
+//! the unstable focus, the repelling cycle around the stable focus on the other side is sought.
 
 use rayon::prelude::*;
 
 use crate::compiled::{Backend, Formulas};
+use crate::cycle::{CANDIDATE_OFFSET, CycleOptions, find_limit_cycle};
 use crate::equilibria::{EquilibriumOptions, find_equilibria};
 use crate::expr::Expr;
 use crate::linear::{CLASS_EPS, Class, Linearisation, linearise};
 use crate::model::{Model, ModelError, Window};
+use crate::scene::CycleStability;
 
 /// Default largest continuation step, in scaled arclength.
 pub const DEFAULT_MAX_STEP: f64 = 0.02;
@@ -89,6 +97,11 @@ const EDGE_SLACK: f64 = 1e-9;
 const GRID_SNAP: f64 = 1e-9;
 /// Grid values handed to the thread pool at once; cancellation is checked between chunks.
 const GRID_CHUNK: usize = 64;
+/// Cycle searches handed to the thread pool at once; cancellation is checked between chunks.
+const CYCLE_CHUNK: usize = 4;
+/// When none of this many samples nearest an unstable focus's Hopf point has a cycle around
+/// it, the Hopf point is taken as subcritical and the stable side is searched instead.
+const SUBCRITICAL_PROBES: usize = 3;
 
 /// What to sweep and how carefully.
 #[derive(Clone, Debug)]
@@ -122,6 +135,12 @@ pub struct SweepOptions {
     /// Seeds per side of the quick search at the other grid values. Default
     /// [`DEFAULT_QUICK_SEEDS`].
     pub quick_seeds_per_side: usize,
+    /// Limit-cycle samples per Hopf point (0, the default, for none). The samples lie past
+    /// the Hopf point on the side where the equilibrium is an unstable focus, spaced by the
+    /// square of their index (so evenly in the √(distance) by which a cycle's amplitude grows).
+    pub cycle_samples: usize,
+    /// Settings of the limit-cycle searches.
+    pub cycle_options: CycleOptions,
 }
 
 impl SweepOptions {
@@ -152,6 +171,8 @@ impl Default for SweepOptions {
             equilibria: EquilibriumOptions::default(),
             full_search_every: DEFAULT_FULL_SEARCH_EVERY,
             quick_seeds_per_side: DEFAULT_QUICK_SEEDS,
+            cycle_samples: 0,
+            cycle_options: CycleOptions::default(),
         }
     }
 }
@@ -294,6 +315,27 @@ pub struct SweepPoint {
     pub equilibria: Vec<BranchPoint>,
 }
 
+/// A limit cycle found at one parameter value past a Hopf point.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct CycleSample {
+    /// The swept parameter's value.
+    pub value: f64,
+    /// The Hopf point's value the cycle belongs to.
+    pub hopf_value: f64,
+    /// The equilibrium the cycle surrounds.
+    pub equilibrium: [f64; 2],
+    /// Smallest value of each variable on the cycle.
+    pub min: [f64; 2],
+    /// Largest value of each variable on the cycle.
+    pub max: [f64; 2],
+    /// The period (model time units).
+    pub period: f64,
+    /// The nontrivial Floquet multiplier (|m| < 1: attracting).
+    pub multiplier: f64,
+    /// Whether nearby orbits wind onto the cycle.
+    pub stable: bool,
+}
+
 /// The result of [`sweep`].
 #[derive(Clone, Debug, PartialEq)]
 pub struct Sweep {
@@ -307,6 +349,9 @@ pub struct Sweep {
     pub bifurcations: Vec<Bifurcation>,
     /// True when [`SweepOptions::max_branches`] stopped the sweep from following every branch.
     pub branches_truncated: bool,
+    /// Limit cycles past the Hopf points, sorted by value; empty unless
+    /// [`SweepOptions::cycle_samples`] is positive.
+    pub cycles: Vec<CycleSample>,
 }
 
 /// Classes of the equilibria over a grid of two parameters.
@@ -1130,6 +1175,8 @@ pub fn sweep(
     let mut branches: Vec<Branch> = Vec::new();
     let mut candidates: Vec<Candidate> = Vec::new();
     let mut truncated = false;
+    // Progress reached when the branches are done; the cycle searches take the rest.
+    let branch_span = if opts.cycle_samples > 0 { 0.8 } else { 1.0 };
     for k in 0..opts.steps {
         for i in 0..grid_eq[k].len() {
             if covered[k][i] {
@@ -1194,7 +1241,7 @@ pub fn sweep(
             branches.push(trim(nodes, start, end, &window));
         }
         if k % 16 == 0 {
-            progress(0.5 + 0.5 * k as f32 / opts.steps as f32);
+            progress(0.5 + (branch_span - 0.5) * k as f32 / opts.steps as f32);
         }
     }
 
@@ -1237,6 +1284,14 @@ pub fn sweep(
         .collect();
 
     let bifurcations = verify(&candidates, &tracer, &window);
+    let cycles = if opts.cycle_samples > 0 {
+        progress(branch_span);
+        hopf_cycles(model, &mut tracer, &branches, &bifurcations, &|f| {
+            progress(branch_span + (1.0 - branch_span) * f)
+        })?
+    } else {
+        Vec::new()
+    };
     progress(1.0);
     Ok(Sweep {
         param: opts.param.clone(),
@@ -1244,7 +1299,191 @@ pub fn sweep(
         branches,
         bifurcations,
         branches_truncated: truncated,
+        cycles,
     })
+}
+
+fn is_unstable_focus_or_node(c: Class) -> bool {
+    matches!(
+        c,
+        Class::UnstableSpiral
+            | Class::UnstableNode
+            | Class::UnstableDegenerateNode
+            | Class::UnstableStar
+    )
+}
+
+/// The points of `branch` next to index `at` in direction `dir` (±1) while `keep` holds
+/// (points at the same parameter value as the start, such as a grid value on the Hopf point
+/// itself, are passed over: those within `same_value` of it).
+fn run_from(
+    branch: &Branch,
+    at: usize,
+    dir: isize,
+    keep: fn(Class) -> bool,
+    same_value: f64,
+) -> Vec<BranchPoint> {
+    let start = branch.points[at];
+    let mut out = vec![start];
+    let mut i = at as isize + dir;
+    while let Some(p) = usize::try_from(i).ok().and_then(|i| branch.points.get(i)) {
+        if out.len() == 1 && (p.value - start.value).abs() <= same_value {
+            i += dir;
+            continue;
+        }
+        if !keep(p.linear.class) {
+            break;
+        }
+        out.push(*p);
+        i += dir;
+    }
+    out
+}
+
+/// Parameter values and equilibria at which to look for a cycle, along `run` (which starts at
+/// the Hopf point): `n` values spaced by the square of their index out to the run's far end.
+fn sample_run(tracer: &mut Tracer, run: &[BranchPoint], n: usize) -> Vec<(f64, [f64; 2])> {
+    let (Some(first), Some(far)) = (
+        run.first(),
+        run.iter().max_by(|a, b| {
+            (a.value - run[0].value)
+                .abs()
+                .total_cmp(&(b.value - run[0].value).abs())
+        }),
+    ) else {
+        return Vec::new();
+    };
+    let (h, end) = (first.value, far.value);
+    if end == h {
+        return Vec::new();
+    }
+    let mut out = Vec::new();
+    for j in 1..=n {
+        let f = j as f64 / n as f64;
+        let v = h + (end - h) * f * f;
+        // The first piece of the run that brackets v, interpolated and corrected at v.
+        let Some(w) = run
+            .windows(2)
+            .find(|w| (w[0].value - v) * (w[1].value - v) <= 0.0 && w[0].value != w[1].value)
+        else {
+            continue;
+        };
+        let t = (v - w[0].value) / (w[1].value - w[0].value);
+        let guess = [
+            w[0].x + t * (w[1].x - w[0].x),
+            w[0].y + t * (w[1].y - w[0].y),
+            v,
+        ];
+        if let Ok(u) = tracer.ev.correct_at(guess, v) {
+            out.push((v, [u[0], u[1]]));
+        }
+    }
+    out
+}
+
+/// Looks for the cycle around each equilibrium in `at`, in parallel chunks with cancellation
+/// between them.
+fn search_cycles(
+    model: &Model,
+    tracer: &Tracer,
+    hopf_value: f64,
+    at: &[(f64, [f64; 2])],
+    progress: &dyn Fn(f32),
+) -> Result<Vec<Option<CycleSample>>, SweepError> {
+    let param = tracer.opts.param.as_str();
+    let copts = tracer.opts.cycle_options;
+    let w = model.window();
+    let d = CANDIDATE_OFFSET * std::f64::consts::FRAC_1_SQRT_2;
+    let mut out = Vec::with_capacity(at.len());
+    for chunk in at.chunks(CYCLE_CHUNK) {
+        if (tracer.cancelled)() {
+            return Err(SweepError::Cancelled);
+        }
+        let found: Vec<Option<CycleSample>> = chunk
+            .par_iter()
+            .map(|&(v, e)| {
+                let mut m = model.clone();
+                m.set_param(param, v).ok()?;
+                // NOTE: off the equilibrium diagonally in window units, so an invariant axis
+                // of a population model is not chosen.
+                let start = [e[0] + d * w.width(), e[1] + d * w.height()];
+                let r = find_limit_cycle(&m, start, &copts).ok()?;
+                let c = r.cycle;
+                let surrounds = (0..2).all(|k| c.min[k] < e[k] && e[k] < c.max[k]);
+                surrounds.then_some(CycleSample {
+                    value: v,
+                    hopf_value,
+                    equilibrium: e,
+                    min: c.min,
+                    max: c.max,
+                    period: c.period,
+                    multiplier: c.multiplier,
+                    stable: c.stability == CycleStability::Attracting,
+                })
+            })
+            .collect();
+        out.extend(found);
+        progress(out.len() as f32 / at.len().max(1) as f32);
+    }
+    Ok(out)
+}
+
+/// Limit-cycle samples past every Hopf point; see [`SweepOptions::cycle_samples`].
+fn hopf_cycles(
+    model: &Model,
+    tracer: &mut Tracer,
+    branches: &[Branch],
+    bifurcations: &[Bifurcation],
+    progress: &dyn Fn(f32),
+) -> Result<Vec<CycleSample>, SweepError> {
+    let n = tracer.opts.cycle_samples;
+    let same_value = 1e-9 * tracer.ev.scale[2];
+    let hopfs: Vec<&Bifurcation> = bifurcations
+        .iter()
+        .filter(|b| b.kind == BifurcationKind::Hopf)
+        .collect();
+    let mut out = Vec::new();
+    for (i, b) in hopfs.iter().enumerate() {
+        let span = |f: f32| progress((i as f32 + f) / hopfs.len() as f32);
+        // The branch point the Hopf point was located at.
+        let near = |p: &BranchPoint, tr: &Tracer| {
+            let e = tr.scaled_diff([p.x, p.y, p.value], [b.x, b.y, b.value]);
+            e.iter().fold(0.0_f64, |m, v| m.max(v.abs())) < DEDUPE_TOL
+        };
+        let Some((branch, at)) = branches.iter().find_map(|br| {
+            br.points
+                .iter()
+                .position(|p| near(p, tracer))
+                .map(|at| (br, at))
+        }) else {
+            continue;
+        };
+        for dir in [1isize, -1] {
+            let run = run_from(branch, at, dir, is_unstable_focus_or_node, same_value);
+            if run.len() < 2 {
+                continue;
+            }
+            let samples = sample_run(tracer, &run, n);
+            let probe = samples.len().min(SUBCRITICAL_PROBES);
+            let first = search_cycles(model, tracer, b.value, &samples[..probe], &|_| {})?;
+
+            if first.iter().all(Option::is_none) {
+                // Subcritical: the cycle, if any, surrounds the stable focus on the other side.
+                let run = run_from(branch, at, -dir, |c| c == Class::StableSpiral, same_value);
+                if run.len() >= 2 {
+                    let samples = sample_run(tracer, &run, n);
+                    let found = search_cycles(model, tracer, b.value, &samples, &span)?;
+                    out.extend(found.into_iter().flatten());
+                }
+                continue;
+            }
+            let rest = search_cycles(model, tracer, b.value, &samples[probe..], &span)?;
+            out.extend(first.into_iter().chain(rest).flatten());
+        }
+        span(1.0);
+    }
+    out.sort_by(|a, b| a.value.total_cmp(&b.value));
+    Ok(out)
 }
 
 /// Turns candidates into bifurcations: a det J zero that is not a fold counts only where
@@ -1500,6 +1739,75 @@ mod tests {
         };
         assert_eq!(class_at(2.5), Class::StableSpiral);
         assert_eq!(class_at(4.0), Class::UnstableSpiral);
+    }
+
+    #[test]
+    fn hopf_normal_form_cycles_have_amplitude_sqrt_mu_and_period_two_pi() {
+        // Closed form (common practice): the Hopf normal form r' = μr − r³, θ' = 1, written in
+        // x, y, has the attracting cycle r = √μ with period 2π for μ > 0 and none for μ < 0.
+        let m = model(
+            ["mu*x - y - x*(x^2 + y^2)", "x + mu*y - y*(x^2 + y^2)"],
+            &[("mu", 0.1)],
+            None,
+            [-1.5, 1.5, -1.5, 1.5],
+        );
+        let plain = run(&m, &SweepOptions::new("mu", -0.5, 1.0, 31));
+        assert!(plain.cycles.is_empty(), "cycles are off by default");
+        let opts = SweepOptions {
+            cycle_samples: 6,
+            ..SweepOptions::new("mu", -0.5, 1.0, 31)
+        };
+        let s = run(&m, &opts);
+        let hopf = of_kind(&s, BifurcationKind::Hopf);
+        assert_eq!(hopf.len(), 1, "{:?}", s.bifurcations);
+        assert!(hopf[0].value.abs() < 1e-10, "{}", hopf[0].value);
+        assert_eq!(s.cycles.len(), 6, "{:?}", s.cycles);
+        for c in &s.cycles {
+            assert!(c.value > 0.0, "{c:?}");
+            let r = c.value.sqrt();
+            for k in 0..2 {
+                assert!((c.max[k] - r).abs() < 1e-7, "{c:?}");
+                assert!((c.min[k] + r).abs() < 1e-7, "{c:?}");
+            }
+            assert!(rel(c.period, std::f64::consts::TAU) < 1e-8, "{c:?}");
+            assert!(c.stable);
+            assert_eq!(c.hopf_value, hopf[0].value);
+        }
+        // The samples run out to the end of the range, spaced by the square of their index.
+        let last = s.cycles.last().expect("a sample");
+        assert_eq!(last.value, 1.0);
+        assert!(rel(s.cycles[0].value, 1.0 / 36.0) < 1e-12);
+    }
+
+    #[test]
+    fn rosenzweig_macarthur_cycle_is_born_at_k_h_with_zero_amplitude() {
+        // Rosenzweig 1971: past the hump, K > K_H = 3 with the built-in defaults, the
+        // coexistence equilibrium is an unstable focus surrounded by an attracting cycle that
+        // grows from zero amplitude; near a supercritical Hopf point the amplitude grows as
+        // √(K − K_H) (common practice), so samples at K_H + δ and K_H + 4δ differ twofold.
+        let m = builtin("holling-ii");
+        let opts = SweepOptions {
+            cycle_samples: 10,
+            ..SweepOptions::new("K", 1.0, 5.0, 81)
+        };
+        let s = run(&m, &opts);
+        let k_h = 3.0;
+        assert!(!s.cycles.is_empty());
+        assert!(s.cycles.iter().all(|c| c.value > k_h && c.stable));
+        let amp = |c: &CycleSample| c.max[0] - c.min[0];
+        let (c1, c2) = (&s.cycles[0], &s.cycles[1]);
+        assert!(rel(c1.value - k_h, 0.02) < 1e-6 && rel(c2.value - k_h, 0.08) < 1e-6);
+        let ratio = amp(c1) / amp(c2);
+        assert!((ratio - 0.5).abs() < 0.05, "amplitude ratio {ratio}");
+        // Amplitude grows along the samples and is small next to the Hopf point.
+        assert!(s.cycles.windows(2).all(|w| amp(&w[1]) > amp(&w[0])));
+        let last = s.cycles.last().expect("sample");
+        assert!(amp(c1) < 0.2 * amp(last));
+        // The cycle surrounds the equilibrium x* = 0.5 (Rosenzweig 1971).
+        for c in &s.cycles {
+            assert!((c.equilibrium[0] - 0.5).abs() < 1e-9);
+            assert!(c.min[0] < 0.5 && c.max[0] > 0.5);
+        }
     }
 
     #[test]

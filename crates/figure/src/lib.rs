@@ -17,14 +17,20 @@
 //! assert!(svg.starts_with("<svg"));
 //! ```
 
+mod chart;
 mod geometry;
 mod legend;
 mod raster;
 mod render;
 mod style;
 mod svg;
+mod sweep_figure;
 mod text;
 pub mod ticks;
+mod yield_figure;
+
+pub use sweep_figure::{SweepFigure, render_sweep_png, render_sweep_svg};
+pub use yield_figure::{YieldFigure, render_yield_png, render_yield_svg};
 
 #[cfg(test)]
 mod tests;
