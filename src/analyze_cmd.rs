@@ -1,6 +1,8 @@
 //! `quarry analyze`: every equilibrium in the window with its linearisation, class and, for a
 //! linear centre, the nonlinear verdict.
 
+use std::path::PathBuf;
+
 use clap::Args;
 use quarry_core::analysis::{self, Analysis, Equilibrium};
 use quarry_core::model::Model;
@@ -9,6 +11,7 @@ use serde_json::{Value, json};
 use crate::Failure;
 use crate::model_args::ModelArgs;
 use crate::output::{fmt, json_text, num, write_stdout};
+use crate::tables;
 
 /// Arguments of `quarry analyze`.
 #[derive(Args, Debug)]
@@ -18,22 +21,61 @@ pub struct AnalyzeArgs {
     /// Print JSON instead of a table.
     #[arg(long)]
     pub json: bool,
+    /// Write the equilibria as CSV (position, trace, determinant, eigenvalues, class,
+    /// verdict, explanation): to FILE (the table or JSON still goes to stdout), or, with no
+    /// FILE or `-`, to stdout instead of the table.
+    #[arg(
+        long,
+        value_name = "FILE",
+        num_args = 0..=1,
+        default_missing_value = "-"
+    )]
+    pub csv: Option<PathBuf>,
 }
 
 /// Runs the subcommand.
 pub fn run(args: &AnalyzeArgs) -> Result<(), Failure> {
     let (model, harvest, _) = args.model.harvested()?;
+    let csv_to_stdout = args.csv.as_deref().is_some_and(tables::is_stdout);
+    if csv_to_stdout && args.json {
+        return Err(Failure::Usage(
+            "--json and --csv without a FILE both write to stdout: give --csv FILE".into(),
+        ));
+    }
     let analysis = analysis::analyze(&model);
+    let mut csv_note = None;
+    if let Some(path) = &args.csv {
+        let units = tables::units_of(&args.model);
+        let text = quarry_core::export::equilibria_csv(model.variables(), &analysis, Some(&units));
+        if csv_to_stdout {
+            if harvest.is_active() {
+                // stdout holds only the table; the caution goes beside it.
+                eprintln!("{}", quarry_core::harvest::CAUTION);
+            }
+            return write_stdout(&text);
+        }
+        tables::write_file(path, text.as_bytes(), "--csv")?;
+        csv_note = Some(path.display().to_string());
+    }
     let text = if args.json {
         let mut v = to_json(&model, &analysis);
         if harvest.is_active() {
             v["caution"] = quarry_core::harvest::CAUTION.into();
+        }
+        if let Some(path) = &csv_note {
+            v["csv"] = json!({ "file": path, "rows": analysis.equilibria.len() });
         }
         json_text(&v)
     } else {
         let mut t = table(&model, &analysis);
         if harvest.is_active() {
             t.push_str(&format!("\n{}\n", quarry_core::harvest::CAUTION));
+        }
+        if let Some(path) = &csv_note {
+            t.push_str(&format!(
+                "wrote {} equilibria to {path}\n",
+                analysis.equilibria.len()
+            ));
         }
         t
     };

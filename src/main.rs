@@ -9,8 +9,10 @@ mod model_args;
 mod orbit_cmd;
 mod output;
 mod render_cmd;
+mod report_cmd;
 mod scenario_cmd;
 mod sweep_cmd;
+mod tables;
 mod yield_cmd;
 
 use std::process::ExitCode;
@@ -45,6 +47,8 @@ enum Command {
     Yield(yield_cmd::YieldArgs),
     /// Draw the phase portrait as SVG or PNG.
     Render(render_cmd::RenderArgs),
+    /// Write a one-page HTML report: formulas, equilibria, phase portrait, time series, yield.
+    Report(report_cmd::ReportArgs),
     /// Check a scenario file: exit 0 when valid, 2 with line, column and field when not.
     Check(scenario_cmd::FileArgs),
     /// Rewrite a scenario file in canonical form.
@@ -107,6 +111,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
         Some(Command::Analyze(args)) => analyze_cmd::run(&args),
         Some(Command::Orbit(args)) => orbit_cmd::run(&args),
         Some(Command::Render(args)) => render_cmd::run(&args),
+        Some(Command::Report(args)) => report_cmd::run(&args),
         Some(Command::Sweep(args)) => sweep_cmd::run(&args),
         Some(Command::Yield(args)) => yield_cmd::run(&args),
         Some(Command::Check(args)) => scenario_cmd::check(&args),

@@ -1,6 +1,9 @@
-//! `quarry orbit`: integrate one orbit and measure it, or write it as CSV rows.
+//! `quarry orbit`: integrate one orbit and measure it, and write it as CSV rows.
+
+use std::path::PathBuf;
 
 use clap::Args;
+use quarry_core::export::{self, CatchRates};
 use quarry_core::harvest;
 use quarry_core::orbit::{self, OrbitOptions, OrbitReport};
 use serde_json::json;
@@ -8,9 +11,13 @@ use serde_json::json;
 use crate::Failure;
 use crate::model_args::{ModelArgs, parse_list, parse_number};
 use crate::output::{fmt, json_text, num, write_stdout};
+use crate::tables;
 
 /// Largest number of CSV rows `--csv --dt` may ask for.
 const MAX_CSV_ROWS: f64 = 10_000_000.0;
+
+/// Rows per run, less one, when `--csv` is given without `--dt`.
+const DEFAULT_CSV_INTERVALS: f64 = 1000.0;
 
 /// Arguments of `quarry orbit`.
 #[derive(Args, Debug)]
@@ -35,12 +42,19 @@ pub struct OrbitArgs {
     #[arg(long)]
     pub clip: bool,
     /// Print JSON instead of a table.
-    #[arg(long, conflicts_with = "csv")]
+    #[arg(long)]
     pub json: bool,
-    /// Write rows `t,x,y` every --dt instead of the measurements.
-    #[arg(long, requires = "dt")]
-    pub csv: bool,
-    /// Time between CSV rows.
+    /// Write the orbit as CSV rows every --dt: time, both variables and the catch of each
+    /// harvested species. To FILE (the measurements still go to stdout), or, with no FILE or
+    /// `-`, to stdout instead of the measurements.
+    #[arg(
+        long,
+        value_name = "FILE",
+        num_args = 0..=1,
+        default_missing_value = "-"
+    )]
+    pub csv: Option<PathBuf>,
+    /// Time between CSV rows (default: a thousandth of the run).
     #[arg(long, value_name = "DT")]
     pub dt: Option<f64>,
 }
@@ -88,15 +102,47 @@ pub fn run(args: &OrbitArgs) -> Result<(), Failure> {
     } else {
         None
     };
-    let text = if args.csv {
-        let dt = args.dt.unwrap_or(1.0);
-        let mut s = format!("t,{xn},{yn}\n");
-        for [t, x, y] in report.rows(dt) {
-            s.push_str(&format!("{t},{x},{y}\n"));
+    let csv_to_stdout = args.csv.as_deref().is_some_and(tables::is_stdout);
+    if csv_to_stdout && args.json {
+        return Err(Failure::Usage(
+            "--json and --csv without a FILE both write to stdout: give --csv FILE".into(),
+        ));
+    }
+    let mut csv_note = None;
+    if let Some(path) = &args.csv {
+        let dt = args
+            .dt
+            .unwrap_or(report.t_final.abs() / DEFAULT_CSV_INTERVALS);
+        let rows: Vec<(f64, [f64; 2])> = report
+            .rows(dt)
+            .into_iter()
+            .map(|[t, x, y]| (t, [x, y]))
+            .collect();
+        let catch = if harvest.is_active() {
+            Some(
+                CatchRates::new(&model, &harvest, &base_spec)
+                    .map_err(|e| Failure::Usage(format!("--harvest: {e}")))?,
+            )
+        } else {
+            None
+        };
+        let units = tables::units_of(&args.model);
+        let text = export::orbit_csv([xn, yn], &rows, catch.as_ref(), Some(&units));
+        if csv_to_stdout {
+            if harvest.is_active() {
+                // stdout holds only the table; the caution goes beside it.
+                eprintln!("{}", harvest::CAUTION);
+            }
+            return write_stdout(&text);
         }
-        s
-    } else if args.json {
+        tables::write_file(path, text.as_bytes(), "--csv")?;
+        csv_note = Some((path.display().to_string(), rows.len()));
+    }
+    let text = if args.json {
         let mut v = to_json(&report);
+        if let Some((path, rows)) = &csv_note {
+            v["csv"] = json!({ "file": path, "rows": rows });
+        }
         if let Some(y) = &yields {
             v["harvest"] = json!({
                 "mean_catch": [num(y.mean_catch[0]), num(y.mean_catch[1])],
@@ -116,6 +162,9 @@ pub fn run(args: &OrbitArgs) -> Result<(), Failure> {
                 fmt(y.mean_profit),
                 harvest::CAUTION
             ));
+        }
+        if let Some((path, rows)) = &csv_note {
+            t.push_str(&format!("wrote {rows} rows to {path}\n"));
         }
         t
     };

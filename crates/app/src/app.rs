@@ -754,23 +754,33 @@ impl QuarryApp {
         quarry_core::scenario::write_atomically(&request.path, &bytes).map_err(|e| e.to_string())
     }
 
+    /// The scene on screen with only the orbits that are shown (and, given a selection, only
+    /// the selected ones). Empty before the first scene arrives.
+    fn shown_scene(&self, selection: Option<&[u64]>) -> Scene {
+        let Some(scene) = self.scene() else {
+            return Scene::default();
+        };
+        let mut scene = scene.clone();
+        let shown: Vec<[f64; 2]> = self
+            .scenario
+            .seeds
+            .iter()
+            .filter(|s| s.visible && selection.is_none_or(|sel| sel.contains(&s.id)))
+            .map(|s| s.at)
+            .collect();
+        scene.orbits.retain(|o| shown.contains(&o.seed));
+        scene
+    }
+
     /// The bytes of an export in `format` (`png`, `svg`, `csv` or `html`).
     fn export_bytes(&self, request: &ExportRequest, format: &str) -> Result<Vec<u8>, String> {
-        let scene = self
-            .scene()
-            .ok_or("The scene is still being computed; try again in a moment.")?;
+        if self.scene().is_none() {
+            return Err("The scene is still being computed; try again in a moment.".into());
+        }
         let [width, height] = request.size;
         let svg = match request.kind {
             ExportKind::PlaneFigure => {
-                let mut scene = scene.clone();
-                let shown: Vec<[f64; 2]> = self
-                    .scenario
-                    .seeds
-                    .iter()
-                    .filter(|s| s.visible)
-                    .map(|s| s.at)
-                    .collect();
-                scene.orbits.retain(|o| shown.contains(&o.seed));
+                let scene = self.shown_scene(None);
                 let l = self.scenario.layers;
                 let opts = quarry_figure::FigureOptions {
                     width,
@@ -823,11 +833,95 @@ impl QuarryApp {
                 };
                 quarry_figure::render_yield_svg(curve, &opts)
             }
-            other => {
-                return Err(format!(
-                    "{} is not available in this build yet",
-                    other.label().trim_end_matches('…')
-                ));
+            ExportKind::TimeSeriesFigure => {
+                let mut series = quarry_figure::time_series::TimeSeries::from_scene(
+                    &self.shown_scene(Some(&self.selection)),
+                );
+                if series.orbits.is_empty() {
+                    return Err("Select an orbit for the time series first (click its row).".into());
+                }
+                let file = self.scenario.to_file();
+                series.title = self.scenario.spec.name.clone();
+                series.units = file.variables.clone().map(|v| v.unit);
+                let opts = quarry_figure::time_series::TimeSeriesOptions {
+                    width,
+                    height,
+                    caption: Some(quarry_figure::CAUTION.to_owned()),
+                    ..Default::default()
+                };
+                quarry_figure::time_series::render_time_series_svg(&series, &opts)
+            }
+            ExportKind::OrbitsCsv => {
+                let scene = self.shown_scene(None);
+                if scene.orbits.is_empty() {
+                    return Err(
+                        "There are no orbits to export: click the plane to start one.".into(),
+                    );
+                }
+                let units = quarry_core::export::Units::from_scenario(&self.scenario.to_file());
+                let catch = if self.scenario.harvest.is_active() {
+                    Some(
+                        quarry_core::export::CatchRates::new(
+                            &self.model,
+                            &self.scenario.harvest,
+                            &self.scenario.spec,
+                        )
+                        .map_err(|e| e.to_string())?,
+                    )
+                } else {
+                    None
+                };
+                return Ok(quarry_core::export::scene_orbits_csv(
+                    &scene,
+                    catch.as_ref(),
+                    Some(&units),
+                )
+                .into_bytes());
+            }
+            ExportKind::EquilibriaCsv => {
+                let units = quarry_core::export::Units::from_scenario(&self.scenario.to_file());
+                let analysis = quarry_core::analysis::analyze(&self.model);
+                return Ok(quarry_core::export::equilibria_csv(
+                    self.model.variables(),
+                    &analysis,
+                    Some(&units),
+                )
+                .into_bytes());
+            }
+            ExportKind::SweepCsv => {
+                let sweep = self
+                    .sweep
+                    .result()
+                    .ok_or("Run a sweep first (Sweep in the toolbar).")?;
+                let units = quarry_core::export::Units::from_scenario(&self.scenario.to_file());
+                let vars = self.model.variables();
+                // The bifurcation points go beside the branches, in a file of their own.
+                let side = bifurcations_path(&request.path);
+                let table = quarry_core::export::bifurcations_csv(vars, sweep, Some(&units));
+                quarry_core::scenario::write_atomically(&side, table.as_bytes())
+                    .map_err(|e| e.to_string())?;
+                return Ok(quarry_core::export::sweep_csv(vars, sweep, Some(&units)).into_bytes());
+            }
+            ExportKind::Report => {
+                let file = self.scenario.to_file();
+                let starts: Vec<[f64; 2]> = self
+                    .scenario
+                    .seeds
+                    .iter()
+                    .filter(|s| s.visible)
+                    .map(|s| s.at)
+                    .collect();
+                let req = quarry_figure::report::ReportRequest {
+                    scenario: &file,
+                    base: &self.scenario.spec,
+                    harvest: &self.scenario.harvest,
+                    starts,
+                    t_end: self.scenario.orbit_time,
+                    generated_utc: quarry_figure::report::iso_utc(std::time::SystemTime::now()),
+                };
+                let input =
+                    quarry_figure::report::prepare_report(&req).map_err(|e| e.to_string())?;
+                return Ok(quarry_figure::report::report_html(&input).into_bytes());
             }
         };
         match format {
@@ -1184,6 +1278,15 @@ impl QuarryApp {
         let request = self.scenario.scene_request();
         self.scenes.request(&self.model, &request);
     }
+}
+
+/// Where the bifurcation points of a sweep exported to `path` go: `NAME-bifurcations.csv`.
+pub fn bifurcations_path(path: &Path) -> PathBuf {
+    let stem = path
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "sweep".to_owned());
+    path.with_file_name(format!("{stem}-bifurcations.csv"))
 }
 
 impl eframe::App for QuarryApp {

@@ -178,21 +178,23 @@ impl Toolbar {
                 out.push(Command::Redo);
             }
             ui.separator();
-            if ui
-                .button("Reset view")
-                .on_hover_text("Show the model's whole window (Home)")
-                .clicked()
-            {
-                out.push(Command::ResetView);
-            }
-            if ui
-                .add_enabled(state.view.is_some(), Button::new("Use view as window"))
-                .on_hover_text("Recompute the field, curves and equilibria over what you see")
-                .clicked()
-                && let Some(v) = state.view
-            {
-                out.push(Command::UseViewAsWindow(v));
-            }
+            ui.menu_button("View", |ui| {
+                if ui
+                    .add(Button::new("Reset view").shortcut_text("Home"))
+                    .on_hover_text("Show the model's whole window")
+                    .clicked()
+                {
+                    out.push(Command::ResetView);
+                }
+                if ui
+                    .add_enabled(state.view.is_some(), Button::new("Use view as window"))
+                    .on_hover_text("Recompute the field, curves and equilibria over what you see")
+                    .clicked()
+                    && let Some(v) = state.view
+                {
+                    out.push(Command::UseViewAsWindow(v));
+                }
+            });
             ui.separator();
             for (kind, text, hint) in [
                 (

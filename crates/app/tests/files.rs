@@ -245,3 +245,79 @@ fn the_plane_exports_as_png_and_svg_at_the_asked_size() {
     );
     assert!(!dir.join("plane.jpeg").exists());
 }
+
+#[test]
+fn every_export_writes_a_file_that_reads_back() {
+    use quarry_app::export::{ExportKind, ExportRequest};
+    let dir = temp_dir("export-all");
+    let file = ScenarioFile::load(&demo("varrow-perch-and-pike.ron")).expect("demo");
+    let mut h = harness(QuarryApp::from_file_synchronous(&file, None, None));
+    h.state_mut().apply(Command::AddOrbit([30.0, 10.0]));
+    h.run();
+    // Before a sweep there is nothing to draw, and the message says what to do.
+    h.state_mut().apply(Command::Export(ExportRequest {
+        kind: ExportKind::SweepFigure,
+        path: dir.join("sweep.svg"),
+        size: [800, 600],
+    }));
+    h.run();
+    assert!(
+        h.state()
+            .notice()
+            .is_some_and(|n| n.contains("Run a sweep first"))
+    );
+    {
+        let view = h.state_mut().sweep_view();
+        view.param = "c".into();
+        view.from = 0.5;
+        view.to = 3.0;
+        view.steps = 26;
+    }
+    h.get_by_label("Sweep").click();
+    h.run();
+    h.get_by_label("Run sweep").click();
+    h.run();
+    for (kind, name) in [
+        (ExportKind::TimeSeriesFigure, "ts.svg"),
+        (ExportKind::SweepFigure, "sweep.svg"),
+        (ExportKind::OrbitsCsv, "orbits.csv"),
+        (ExportKind::EquilibriaCsv, "equilibria.csv"),
+        (ExportKind::SweepCsv, "sweep.csv"),
+        (ExportKind::Report, "report.html"),
+    ] {
+        let path = dir.join(name);
+        h.state_mut().apply(Command::Export(ExportRequest {
+            kind,
+            path: path.clone(),
+            size: [800, 600],
+        }));
+        h.run();
+        let text = std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("{name}: {e}"));
+        match name.rsplit('.').next() {
+            Some("svg") => {
+                roxmltree::Document::parse(&text).expect("the SVG parses");
+            }
+            Some("csv") => {
+                let header = text.lines().next().expect("a header");
+                assert!(header.contains("perch"), "{name}: {header}");
+                // The units come from the scenario file.
+                assert!(header.contains("thousand fish"), "{name}: {header}");
+            }
+            _ => {
+                assert!(text.contains("<table"), "{name}");
+                assert_eq!(text.matches("<svg").count() >= 2, true, "{name}");
+            }
+        }
+    }
+    // The orbit CSV's first row is the start of the scenario's first orbit.
+    let csv = std::fs::read_to_string(dir.join("orbits.csv")).expect("csv");
+    let first: Vec<f64> = csv
+        .lines()
+        .nth(1)
+        .expect("a row")
+        .split(',')
+        .map(|f| f.parse().expect("a number"))
+        .collect();
+    assert_eq!(&first[2..4], &[file.orbits[0].x, file.orbits[0].y]);
+    assert!(dir.join("sweep-bifurcations.csv").exists());
+}

@@ -8,6 +8,7 @@ pub mod compiled;
 pub mod contour;
 pub mod cycle;
 pub mod equilibria;
+pub mod export;
 pub mod expr;
 pub mod field;
 pub mod harvest;

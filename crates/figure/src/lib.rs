@@ -22,6 +22,7 @@ mod geometry;
 mod legend;
 mod raster;
 mod render;
+pub mod report;
 mod style;
 mod svg;
 mod sweep_figure;
@@ -31,11 +32,17 @@ mod yield_figure;
 
 pub use sweep_figure::{SweepFigure, render_sweep_png, render_sweep_svg};
 pub use yield_figure::{YieldFigure, render_yield_png, render_yield_svg};
+pub mod time_series;
 
 #[cfg(test)]
 mod tests;
 
 use quarry_core::scene::Scene;
+
+pub use report::{ReportInput, ReportRequest, prepare_report, report_html};
+pub use time_series::{
+    SeriesOrbit, TimeSeries, TimeSeriesOptions, render_time_series_png, render_time_series_svg,
+};
 
 /// Largest width or height (px) of a figure.
 pub const MAX_SIZE: u32 = 16384;
