@@ -88,11 +88,7 @@ pub type Curve = Vec<[f64; 2]>;
 
 /// The limit cycles' smallest and largest values of `variable` against the parameter, one
 /// pair of curves per Hopf point, for cycles that attract (`stable`) or repel.
-pub fn cycle_curves(
-    sweep: &Sweep,
-    variable: usize,
-    stable: bool,
-) -> Vec<(Curve, Curve)> {
+pub fn cycle_curves(sweep: &Sweep, variable: usize, stable: bool) -> Vec<(Curve, Curve)> {
     let mut groups: Vec<(f64, Vec<&quarry_core::sweep::CycleSample>)> = Vec::new();
     for c in sweep.cycles.iter().filter(|c| c.stable == stable) {
         match groups.iter_mut().find(|(h, _)| *h == c.hopf_value) {
