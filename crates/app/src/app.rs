@@ -20,6 +20,7 @@ use crate::harvest_panel::HarvestPanel;
 use crate::help::HelpPanel;
 use crate::history::History;
 use crate::layers::LayersPanel;
+use crate::map_view::MapView;
 use crate::orbits::OrbitsPanel;
 use crate::params::ParamsPanel;
 use crate::plane::{PlanePanel, PlaneView};
@@ -92,6 +93,9 @@ pub struct QuarryApp {
     /// Why the last harvest change could not be applied.
     harvest_error: Option<String>,
     sweep: SweepView,
+    map: MapView,
+    /// Whether the sweep window shows the two-parameter map.
+    map_tab: bool,
     yield_view: YieldView,
     /// The export window, when shown.
     export_window: Option<ExportWindow>,
@@ -187,6 +191,8 @@ impl QuarryApp {
             harvest: HarvestPanel,
             harvest_error: None,
             sweep: SweepView::default(),
+            map: MapView::default(),
+            map_tab: false,
             yield_view: YieldView::default(),
             export_window: None,
             jobs_ctx: None,
@@ -470,13 +476,28 @@ impl QuarryApp {
             .default_size([640.0, 520.0])
             .resizable(true)
             .show(&ctx, |ui| {
-                self.sweep.ui(
-                    ui,
-                    &self.scenario,
-                    &self.model,
-                    self.jobs_ctx.clone(),
-                    &mut out,
-                );
+                ui.horizontal(|ui| {
+                    ui.selectable_value(&mut self.map_tab, false, "One parameter");
+                    ui.selectable_value(&mut self.map_tab, true, "Two-parameter map");
+                });
+                ui.separator();
+                if self.map_tab {
+                    self.map.ui(
+                        ui,
+                        &self.scenario,
+                        &self.model,
+                        self.jobs_ctx.clone(),
+                        &mut out,
+                    );
+                } else {
+                    self.sweep.ui(
+                        ui,
+                        &self.scenario,
+                        &self.model,
+                        self.jobs_ctx.clone(),
+                        &mut out,
+                    );
+                }
             });
         if open != self.panels.sweep {
             out.push(Command::ShowPanel(PanelKind::Sweep, open));

@@ -18,6 +18,7 @@ pub mod help;
 pub mod history;
 pub mod job;
 pub mod layers;
+pub mod map_view;
 pub mod orbits;
 pub mod params;
 pub mod plane;

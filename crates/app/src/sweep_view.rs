@@ -446,7 +446,7 @@ impl SweepView {
 }
 
 /// The command that sets a swept parameter, whether it is the model's or the harvest's.
-fn set_param(scenario: &Scenario, name: &str, value: f64, out: &mut Vec<Command>) {
+pub fn set_param(scenario: &Scenario, name: &str, value: f64, out: &mut Vec<Command>) {
     if !value.is_finite() {
         return;
     }

@@ -474,3 +474,22 @@ fn the_yield_view_reads_msy_and_collapse_off_the_schaefer_curve() {
     // x* = K(1 − qE/r) = 50 at E = 25 (Schaefer 1954).
     assert!((x - 50.0).abs() < 1e-7, "{x}");
 }
+
+#[test]
+fn the_two_parameter_map_colours_the_cells_by_what_the_equilibria_do() {
+    let spec = quarry_core::library::builtin("holling-ii")
+        .expect("built-in")
+        .spec();
+    let mut h = harness(QuarryApp::new_synchronous(spec));
+    h.get_by_label("Sweep").click();
+    h.run();
+    h.get_by_label("Two-parameter map").click();
+    h.run();
+    h.get_by_label("Run map").click();
+    h.run();
+    h.run();
+    // Over r ∈ [0, 2] and K ∈ [0, 16] (the sliders' ranges) the map shows both the region
+    // with a stable equilibrium and, past the Hopf curve K_H = 3, the one with cycles.
+    h.get_by_label("one stable equilibrium");
+    h.get_by_label("no stable equilibrium (cycles or escape)");
+}
