@@ -75,7 +75,7 @@ pub fn regime(classes: &[Class]) -> Regime {
         .filter(|c| stability(**c) == Stability::Stable)
         .count();
     match stable {
-        0 if classes.iter().any(|c| *c == Class::Center) => Regime::Neutral,
+        0 if classes.contains(&Class::Center) => Regime::Neutral,
         0 => Regime::NoneStable,
         1 => Regime::OneStable,
         _ => Regime::SeveralStable,
