@@ -51,6 +51,33 @@ pub fn summary_text(vars: &[String; 2], orbit: &SceneOrbit) -> String {
     }
 }
 
+/// The mean catch (and profit) along a harvested orbit, over its whole cycles when it closes.
+fn catch_text(scenario: &Scenario, orbit: &SceneOrbit) -> Option<String> {
+    let h = &scenario.harvest;
+    if !h.is_active() {
+        return None;
+    }
+    let period = orbit.summary.period.filter(|_| orbit.summary.closed);
+    let mean = h.mean_catch_along(&scenario.spec.window, &orbit.times, &orbit.points, period)?;
+    let parts: Vec<String> = (0..2)
+        .filter(|&i| h.rules[i] != quarry_core::harvest::HarvestRule::None)
+        .map(|i| format!("{} {}", scenario.spec.variables[i], num(mean[i])))
+        .collect();
+    let over = if period.is_some() {
+        "over whole cycles"
+    } else {
+        "to the end"
+    };
+    let mut text = format!("mean catch per unit time {over}: {}", parts.join(", "));
+    if h.economics
+        .iter()
+        .any(|e| e.price > 0.0 || e.cost_per_effort > 0.0)
+    {
+        text.push_str(&format!(" · profit {}", num(h.profit(mean))));
+    }
+    Some(text)
+}
+
 /// The linearisation's period against the orbit's, when the linearisation layer computed
 /// one for this seed.
 fn linear_text(scene: &Scene, seed: &OrbitSeed) -> Option<String> {
@@ -197,6 +224,14 @@ impl OrbitsPanel {
             ui.add_space(26.0);
             ui.add(egui::Label::new(RichText::new(detail).weak()).wrap());
         });
+        if let Some(o) = orbit
+            && let Some(text) = catch_text(scenario, o)
+        {
+            ui.horizontal(|ui| {
+                ui.add_space(26.0);
+                ui.add(egui::Label::new(RichText::new(text).weak()).wrap());
+            });
+        }
         if let Some(linear) = linear {
             ui.horizontal(|ui| {
                 ui.add_space(26.0);

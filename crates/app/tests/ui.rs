@@ -334,6 +334,9 @@ fn the_linearisation_layer_draws_the_linear_solution_and_compares_periods() {
 fn fishing_the_prey_moves_the_equilibrium_and_the_panel_shows_the_catch_with_the_caution() {
     use quarry_core::harvest::{Harvest, HarvestRule};
     let mut h = lotka_volterra();
+    h.state_mut()
+        .apply(quarry_app::command::Command::AddOrbit([12.0, 4.0]));
+    h.run();
     let mut harvest = Harvest::default();
     harvest.rules[0] = HarvestRule::Proportional {
         effort: 0.25,
@@ -354,6 +357,8 @@ fn fishing_the_prey_moves_the_equilibrium_and_the_panel_shows_the_catch_with_the
     h.get_by_label(quarry_core::harvest::CAUTION);
     // The harvested Lotka–Volterra equilibrium is still a centre: no steady catch to quote.
     h.get_by_label_contains("No stable equilibrium");
+    // Along a cycle the mean catch is E·x̄ with x̄ = c/γ = 20 (Volterra's principle): 5.
+    h.get_by_label_contains("mean catch per unit time over whole cycles: x 5");
     // Dragging the effort is a parameter change of the compiled model, not a new model.
     harvest.rules[0] = HarvestRule::Proportional {
         effort: 0.5,
