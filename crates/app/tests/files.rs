@@ -321,3 +321,34 @@ fn every_export_writes_a_file_that_reads_back() {
     assert_eq!(&first[2..4], &[file.orbits[0].x, file.orbits[0].y]);
     assert!(dir.join("sweep-bifurcations.csv").exists());
 }
+
+/// A file dropped on the window, as the windowing layer hands it over.
+#[derive(Debug)]
+struct Dropped(PathBuf);
+
+impl egui::DroppedFile for Dropped {
+    fn path(&self) -> &std::path::Path {
+        &self.0
+    }
+
+    fn bytes(&self) -> Result<Vec<u8>, String> {
+        std::fs::read(&self.0).map_err(|e| e.to_string())
+    }
+}
+
+#[test]
+fn a_scenario_dropped_on_the_window_opens() {
+    let path = demo("dunmere-competing-stocks.ron");
+    let file = ScenarioFile::load(&path).expect("demo loads");
+    let mut h = harness(QuarryApp::from_file_synchronous(
+        &default_scenario(),
+        None,
+        None,
+    ));
+    h.input_mut()
+        .dropped_files
+        .push(std::sync::Arc::new(Dropped(path.clone())));
+    h.run();
+    assert_eq!(h.state().path(), Some(path.as_path()));
+    assert_eq!(h.state().scenario().to_file(), file);
+}
