@@ -9,12 +9,13 @@ use std::fmt::Write as _;
 
 use quarry_core::model::Window;
 
-use crate::MAX_SIZE;
+use crate::axes::{AxisTicks, Page, max_label_width, tick_target};
 use crate::geometry::{CLIP_SLACK_PX, Frame, Px, Rect, screen_runs};
+use crate::legend;
 use crate::style;
-use crate::svg::{escape, num, path_data, polygon_data};
-use crate::text::{text_width, wrap};
-use crate::ticks::{Tick, TickLabel, ticks};
+use crate::svg::{dasharray, escape, num, path_data, polygon_data};
+use crate::text::{fit_length, text_width};
+use crate::ticks::{Tick, ticks};
 
 /// Id of the plot-area clip path.
 const CLIP_ID: &str = "quarry-chart-area";
@@ -30,10 +31,8 @@ pub const PROFIT: &str = "#2e7b47";
 /// Fill of value ranges without a stable equilibrium.
 pub const NO_STABLE_FILL: &str = "#eeeeee";
 
-/// The figure scale: 1 at 900×650, as the phase portrait's.
-pub fn figure_scale(w: f64, h: f64) -> f64 {
-    (w / 900.0).min(h / 650.0).sqrt().clamp(0.6, 3.0)
-}
+/// Height (px) at which the figure scale is 1 (at 900 px wide), as the phase portrait's.
+const REFERENCE_HEIGHT: f64 = 650.0;
 
 /// A located point's marker.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -177,50 +176,13 @@ pub struct Chart {
     pub s: f64,
     /// Model units to pixels.
     pub frame: Frame,
+    page: Page,
     clip: Rect,
-    w: f64,
-    h: f64,
     decorated: bool,
-    title: Option<String>,
-    caption: Vec<String>,
     x_ticks: Vec<Tick>,
     y_ticks: Vec<Tick>,
     right_ticks: Vec<(f64, Tick)>,
     legend_at: Option<(Px, bool)>,
-    font_title: f64,
-    font_axis: f64,
-    font_tick: f64,
-    font_caption: f64,
-}
-
-fn label_width(l: &TickLabel, size: f64) -> f64 {
-    let mut w = text_width(&l.mantissa, size);
-    if let Some(e) = l.exponent {
-        w += text_width("×10", size) + text_width(&format!("−{}", e.abs()), size * 0.72);
-    }
-    w
-}
-
-fn label_svg(l: &TickLabel, size: f64) -> String {
-    let mut s = escape(&l.mantissa);
-    if let Some(e) = l.exponent {
-        let exp = if e < 0 {
-            format!("\u{2212}{}", e.unsigned_abs())
-        } else {
-            e.to_string()
-        };
-        let _ = write!(
-            s,
-            "×10<tspan dy=\"{}\" font-size=\"{}\">{exp}</tspan>",
-            num(-0.42 * size),
-            num(0.72 * size)
-        );
-    }
-    s
-}
-
-fn tick_target(len_px: f64, spacing_px: f64) -> usize {
-    ((len_px / spacing_px).round() as usize).clamp(2, 10)
 }
 
 /// Legend metrics at scale `s`: row pitch, sample width, gap, font.
@@ -240,41 +202,23 @@ fn legend_size(items: &[(Swatch, String)], s: f64) -> (f64, f64) {
 impl Chart {
     /// Lays the chart out.
     pub fn new(spec: &ChartSpec) -> Self {
-        let w = f64::from(spec.width.clamp(1, MAX_SIZE));
-        let h = f64::from(spec.height.clamp(1, MAX_SIZE));
-        let s = figure_scale(w, h);
-        let (ft, fa, fk, fc) = (18.0 * s, 14.0 * s, 12.0 * s, 11.0 * s);
-        let pad = 14.0 * s;
-        let title = spec
-            .title
-            .as_deref()
-            .map(str::trim)
-            .filter(|t| !t.is_empty())
-            .map(str::to_owned);
-        let caption = spec
-            .caption
-            .as_deref()
-            .map(|c| wrap(c, fc, (w - 2.0 * pad).max(1.0), 4))
-            .unwrap_or_default();
+        let mut page = Page::new(
+            spec.width,
+            spec.height,
+            REFERENCE_HEIGHT,
+            spec.title.as_deref(),
+            spec.caption.as_deref(),
+        );
+        let (w, h, s, pad, top) = (page.w, page.h, page.s, page.pad, page.top);
+        let fk = page.fonts.tick;
+        let fa = page.fonts.axis;
         let window = Window {
             x_min: spec.x.lo,
             x_max: spec.x.hi,
             y_min: spec.y.lo,
             y_max: spec.y.hi,
         };
-        let top = pad
-            + if title.is_some() {
-                ft + 14.0 * s
-            } else {
-                4.0 * s
-            };
-        let caption_h = if caption.is_empty() {
-            0.0
-        } else {
-            caption.len() as f64 * fc * 1.35 + 8.0 * s
-        };
-        let bottom = h - pad - caption_h - (fk + 10.0 * s) - (fa + 10.0 * s);
-        let plot_h = bottom - top;
+        let plot_h = page.bottom - top;
         let unit = Frame::new(
             &window,
             Rect {
@@ -285,10 +229,7 @@ impl Chart {
             },
         );
         let y_ticks = ticks(unit.y0, unit.y1, tick_target(plot_h, 60.0 * s));
-        let y_label_w = y_ticks
-            .iter()
-            .map(|t| label_width(&t.label, fk))
-            .fold(0.0, f64::max);
+        let y_label_w = max_label_width(y_ticks.iter().map(|t| &t.label), fk);
         let right_ticks: Vec<(f64, Tick)> = match &spec.right {
             Some((k, _)) if k.is_finite() && *k > 0.0 => {
                 ticks(k * unit.y0, k * unit.y1, tick_target(plot_h, 60.0 * s))
@@ -301,14 +242,9 @@ impl Chart {
         let right_w = if right_ticks.is_empty() {
             0.0
         } else {
-            right_ticks
-                .iter()
-                .map(|(_, t)| label_width(&t.label, fk))
-                .fold(0.0, f64::max)
-                + fa
-                + 22.0 * s
+            max_label_width(right_ticks.iter().map(|(_, t)| &t.label), fk) + fa + 22.0 * s
         };
-        let left = pad + fa + 12.0 * s + y_label_w + 9.0 * s;
+        let left = page.plot_left(y_label_w);
         let mut right = w - pad - 12.0 * s - right_w;
         let (lw, lh) = legend_size(&spec.legend, s);
         let outside = !spec.legend.is_empty() && lw + 20.0 * s < 0.28 * w;
@@ -373,23 +309,19 @@ impl Chart {
                 legend_at = Some((best, true));
             }
         }
+        if !decorated {
+            page.undecorated();
+        }
         Self {
             s,
             frame,
+            page,
             clip: plot.grown(CLIP_SLACK_PX * s),
-            w,
-            h,
             decorated,
-            title: if decorated { title } else { None },
-            caption: if decorated { caption } else { Vec::new() },
             y_ticks: if decorated { y_ticks } else { Vec::new() },
             x_ticks,
             right_ticks: if decorated { right_ticks } else { Vec::new() },
             legend_at,
-            font_title: ft,
-            font_axis: fa,
-            font_tick: fk,
-            font_caption: fc,
         }
     }
 
@@ -408,15 +340,7 @@ impl Chart {
             return;
         }
         let s = self.s;
-        let dash = dash
-            .map(|(a, b)| {
-                format!(
-                    " stroke-dasharray=\"{} {}\"",
-                    num((a * s).max(0.01)),
-                    num(b * s)
-                )
-            })
-            .unwrap_or_default();
+        let dash = dasharray(*dash, s);
         let _ = write!(
             out,
             "<path class=\"{class}\" d=\"{d}\" fill=\"none\" stroke=\"{colour}\" stroke-width=\"{}\" stroke-linejoin=\"round\" stroke-linecap=\"round\"{dash}/>",
@@ -439,7 +363,7 @@ impl Chart {
         if label.is_empty() {
             return;
         }
-        let fs = self.font_tick;
+        let fs = self.page.fonts.tick;
         let tw = text_width(label, fs);
         let left_side = c[0] + 1.6 * r + tw > self.frame.plot.right() - 4.0 * self.s;
         let (x, anchor) = if left_side {
@@ -458,12 +382,13 @@ impl Chart {
         );
         let _ = write!(
             out,
-            "<text class=\"marker-label\" x=\"{}\" y=\"{}\" font-size=\"{}\" text-anchor=\"{anchor}\" fill=\"{}\" stroke=\"#ffffff\" stroke-width=\"{}\" paint-order=\"stroke\">{}</text>",
+            "<text class=\"marker-label\" x=\"{}\" y=\"{}\" font-size=\"{}\" text-anchor=\"{anchor}\" fill=\"{}\" stroke=\"#ffffff\" stroke-width=\"{}\" paint-order=\"stroke\"{}>{}</text>",
             num(x),
             num(y),
             num(fs),
             style::INK,
             num(3.0 * self.s),
+            fit_length(tw),
             escape(label)
         );
     }
@@ -488,47 +413,11 @@ impl Chart {
 
     /// The document's start: header, clip path, background, grid; opens the clipped group.
     pub fn open(&self, out: &mut String) {
-        let (w, h) = (self.w, self.h);
-        let p = &self.frame.plot;
-        let _ = write!(
-            out,
-            "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"{w}\" height=\"{h}\" viewBox=\"0 0 {w} {h}\" font-family=\"{}\">",
-            style::FONT_FAMILY
-        );
-        if let Some(t) = &self.title {
-            let _ = write!(out, "<title>{}</title>", escape(t));
-        }
-        let _ = write!(
-            out,
-            "<defs><clipPath id=\"{CLIP_ID}\"><rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\"/></clipPath></defs><rect width=\"{w}\" height=\"{h}\" fill=\"#ffffff\"/>",
-            num(p.left),
-            num(p.top),
-            num(p.width),
-            num(p.height)
-        );
+        self.page
+            .open(out, &[(CLIP_ID.to_owned(), self.frame.plot)]);
         if self.decorated {
-            let f = &self.frame;
-            let mut d = String::new();
-            for t in &self.x_ticks {
-                let x = f.screen_x(t.value);
-                if x > p.left + 0.5 && x < p.right() - 0.5 {
-                    let _ = write!(d, "M{} {}V{}", num(x), num(p.top), num(p.bottom()));
-                }
-            }
-            for t in &self.y_ticks {
-                let y = f.screen_y(t.value);
-                if y > p.top + 0.5 && y < p.bottom() - 0.5 {
-                    let _ = write!(d, "M{} {}H{}", num(p.left), num(y), num(p.right()));
-                }
-            }
-            if !d.is_empty() {
-                let _ = write!(
-                    out,
-                    "<path class=\"grid\" d=\"{d}\" stroke=\"{}\" stroke-width=\"{}\" fill=\"none\"/>",
-                    style::GRID,
-                    num(0.8 * self.s)
-                );
-            }
+            self.page
+                .grid(out, &self.frame, &self.x_ticks, &self.y_ticks);
         }
         let _ = write!(out, "<g class=\"plot\" clip-path=\"url(#{CLIP_ID})\">");
     }
@@ -537,148 +426,33 @@ impl Chart {
     /// `overlay` (markers and their labels) goes above the frame, unclipped.
     pub fn close(&self, out: &mut String, spec: &ChartSpec, overlay: &str) {
         out.push_str("</g>");
-        let s = self.s;
+        let page = &self.page;
         let f = &self.frame;
         let p = &f.plot;
         if self.decorated {
-            let tl = 5.0 * s;
-            let mut d = String::new();
-            for t in &self.x_ticks {
-                let _ = write!(
-                    d,
-                    "M{} {}v{}",
-                    num(f.screen_x(t.value)),
-                    num(p.bottom()),
-                    num(tl)
-                );
-            }
-            for t in &self.y_ticks {
-                let _ = write!(
-                    d,
-                    "M{} {}h{}",
-                    num(p.left),
-                    num(f.screen_y(t.value)),
-                    num(-tl)
-                );
-            }
-            for (v, _) in &self.right_ticks {
-                let _ = write!(d, "M{} {}h{}", num(p.right()), num(f.screen_y(*v)), num(tl));
-            }
-            let _ = write!(
-                out,
-                "<rect class=\"frame\" x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" fill=\"none\" stroke=\"{}\" stroke-width=\"{}\"/><path class=\"ticks\" d=\"{d}\" stroke=\"{}\" stroke-width=\"{}\" fill=\"none\"/>",
-                num(p.left),
-                num(p.top),
-                num(p.width),
-                num(p.height),
-                style::FRAME,
-                num(s),
-                style::FRAME,
-                num(s)
-            );
-            let fs = self.font_tick;
-            let _ = write!(
-                out,
-                "<g class=\"tick-labels\" font-size=\"{}\" fill=\"{}\">",
-                num(fs),
-                style::INK_SOFT
-            );
-            for t in &self.x_ticks {
-                let _ = write!(
-                    out,
-                    "<text x=\"{}\" y=\"{}\" text-anchor=\"middle\">{}</text>",
-                    num(f.screen_x(t.value)),
-                    num(p.bottom() + tl + 3.0 * s + fs * 0.8),
-                    label_svg(&t.label, fs)
-                );
-            }
-            for t in &self.y_ticks {
-                let _ = write!(
-                    out,
-                    "<text x=\"{}\" y=\"{}\" text-anchor=\"end\">{}</text>",
-                    num(p.left - tl - 4.0 * s),
-                    num(f.screen_y(t.value) + fs * 0.35),
-                    label_svg(&t.label, fs)
-                );
-            }
-            for (v, t) in &self.right_ticks {
-                let _ = write!(
-                    out,
-                    "<text x=\"{}\" y=\"{}\" text-anchor=\"start\">{}</text>",
-                    num(p.right() + tl + 4.0 * s),
-                    num(f.screen_y(*v) + fs * 0.35),
-                    label_svg(&t.label, fs)
-                );
-            }
-            out.push_str("</g>");
-            let fa = self.font_axis;
-            let axis_text = |out: &mut String, x: f64, y: f64, rotate: Option<i32>, text: &str| {
-                let tr = rotate
-                    .map(|a| format!(" transform=\"rotate({a} {} {})\"", num(x), num(y)))
-                    .unwrap_or_default();
-                let _ = write!(
-                    out,
-                    "<text class=\"axis-label\" x=\"{}\" y=\"{}\" font-size=\"{}\" text-anchor=\"middle\" fill=\"{}\"{tr}>{}</text>",
-                    num(x),
-                    num(y),
-                    num(fa),
-                    style::INK,
-                    escape(text)
-                );
+            let (y, right) = (&self.y_ticks, &self.right_ticks);
+            let ticks = AxisTicks {
+                x: &self.x_ticks,
+                y,
+                right,
             };
-            axis_text(
-                out,
-                p.left + 0.5 * p.width,
-                p.bottom() + tl + 3.0 * s + fs + 10.0 * s + fa * 0.8,
-                None,
-                &spec.x.label,
-            );
-            let yw = self
-                .y_ticks
-                .iter()
-                .map(|t| label_width(&t.label, fs))
-                .fold(0.0, f64::max);
-            let yx = p.left - tl - 4.0 * s - yw - 10.0 * s - fa * 0.25;
-            axis_text(out, yx, p.top + 0.5 * p.height, Some(-90), &spec.y.label);
-            if let (Some((_, name)), false) = (&spec.right, self.right_ticks.is_empty()) {
-                let rw = self
-                    .right_ticks
-                    .iter()
-                    .map(|(_, t)| label_width(&t.label, fs))
-                    .fold(0.0, f64::max);
-                let rx = p.right() + tl + 4.0 * s + rw + 10.0 * s + fa * 0.75;
-                axis_text(out, rx, p.top + 0.5 * p.height, Some(90), name);
+            page.frame_and_ticks(out, f, &ticks);
+            page.tick_labels(out, f, &ticks);
+            let fs = page.fonts.tick;
+            page.x_axis_name(out, p, &spec.x.label);
+            let yw = max_label_width(y.iter().map(|t| &t.label), fs);
+            page.y_axis_name(out, p, yw, page.fonts.axis, &spec.y.label);
+            if let (Some((_, name)), false) = (&spec.right, right.is_empty()) {
+                let rw = max_label_width(right.iter().map(|(_, t)| &t.label), fs);
+                page.right_axis_name(out, p, rw, name);
             }
         }
         out.push_str(overlay);
         if let Some((at, boxed)) = self.legend_at {
             self.legend(out, &spec.legend, at, boxed);
         }
-        if let Some(t) = &self.title {
-            let _ = write!(
-                out,
-                "<text class=\"title\" x=\"{}\" y=\"{}\" font-size=\"{}\" fill=\"{}\">{}</text>",
-                num(p.left),
-                num(14.0 * s + self.font_title * 0.8),
-                num(self.font_title),
-                style::INK,
-                escape(t)
-            );
-        }
-        let lh = self.font_caption * 1.35;
-        let y0 =
-            self.h - 14.0 * s - (self.caption.len() as f64 - 1.0) * lh - 0.25 * self.font_caption;
-        for (i, line) in self.caption.iter().enumerate() {
-            let _ = write!(
-                out,
-                "<text class=\"caption\" x=\"{}\" y=\"{}\" font-size=\"{}\" fill=\"{}\">{}</text>",
-                num(14.0 * s),
-                num(y0 + i as f64 * lh),
-                num(self.font_caption),
-                style::INK_SOFT,
-                escape(line)
-            );
-        }
+        page.draw_title(out, p.left);
+        page.draw_caption(out);
         out.push_str("</svg>");
     }
 
@@ -687,17 +461,7 @@ impl Chart {
         let (row, sw, gap, font) = legend_metrics(s);
         let (w, h) = legend_size(items, s);
         if boxed {
-            let p = 7.0 * s;
-            let _ = write!(
-                out,
-                "<rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" rx=\"{}\" fill=\"#ffffff\" fill-opacity=\"0.92\" stroke=\"#d4d4d4\" stroke-width=\"{}\"/>",
-                num(at[0] - p),
-                num(at[1] - p),
-                num(w + 2.0 * p),
-                num(h + 2.0 * p),
-                num(3.0 * s),
-                num(0.8 * s)
-            );
+            legend::panel(out, at, (w, h), s, 0.92);
         }
         out.push_str("<g class=\"legend\">");
         for (k, (swatch, label)) in items.iter().enumerate() {
@@ -705,15 +469,7 @@ impl Chart {
             let (x0, x1) = (at[0] + s, at[0] + sw - s);
             match swatch {
                 Swatch::Line(colour, width, dash) => {
-                    let dash = dash
-                        .map(|(a, b)| {
-                            format!(
-                                " stroke-dasharray=\"{} {}\"",
-                                num((a * s).max(0.01)),
-                                num(b * s)
-                            )
-                        })
-                        .unwrap_or_default();
+                    let dash = dasharray(*dash, s);
                     let _ = write!(
                         out,
                         "<path d=\"M{} {}H{}\" stroke=\"{colour}\" stroke-width=\"{}\" fill=\"none\" stroke-linecap=\"round\"{dash}/>",
@@ -738,15 +494,7 @@ impl Chart {
                     );
                 }
             }
-            let _ = write!(
-                out,
-                "<text class=\"legend-entry\" x=\"{}\" y=\"{}\" font-size=\"{}\" fill=\"{}\">{}</text>",
-                num(at[0] + sw + gap),
-                num(mid + 0.36 * font),
-                num(font),
-                style::INK,
-                escape(label)
-            );
+            legend::entry_text(out, at[0] + sw + gap, mid, font, label);
         }
         out.push_str("</g>");
     }

@@ -3,9 +3,10 @@
 
 use std::fmt::Write as _;
 
+use crate::geometry::Px;
 use crate::style::{self, Mark};
-use crate::svg::{escape, num};
-use crate::text::text_width;
+use crate::svg::{dasharray, escape, num};
+use crate::text::{fit_attrs, fit_length, spaced_width, text_width};
 
 /// What an entry's sample looks like.
 #[derive(Clone, Debug, PartialEq)]
@@ -101,7 +102,7 @@ impl Legend {
             if i > 0 {
                 h += 0.6 * m.row;
             }
-            w = w.max(text_width(head, m.heading) * 1.1);
+            w = w.max(heading_width(head, m.heading));
             h += m.row;
             for e in entries {
                 w = w.max(m.swatch + m.gap + text_width(&e.label, m.font));
@@ -117,17 +118,7 @@ impl Legend {
         let mut out = String::new();
         let (w, h) = self.size(m);
         if boxed {
-            let p = 7.0 * m.s;
-            let _ = write!(
-                out,
-                "<rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" rx=\"{}\" fill=\"#ffffff\" fill-opacity=\"0.9\" stroke=\"#d4d4d4\" stroke-width=\"{}\"/>",
-                num(x - p),
-                num(y - p),
-                num(w + 2.0 * p),
-                num(h + 2.0 * p),
-                num(3.0 * m.s),
-                num(0.8 * m.s)
-            );
+            panel(&mut out, [x, y], (w, h), m.s, 0.9);
         }
         out.push_str("<g class=\"legend\">");
         let mut cy = y;
@@ -135,34 +126,72 @@ impl Legend {
             if i > 0 {
                 cy += 0.6 * m.row;
             }
-            let _ = write!(
-                out,
-                "<text x=\"{}\" y=\"{}\" font-size=\"{}\" letter-spacing=\"{}\" fill=\"{}\">{head}</text>",
-                num(x),
-                num(cy + 0.72 * m.row),
-                num(m.heading),
-                num(0.08 * m.heading),
-                style::INK_SOFT
-            );
+            heading_text(&mut out, x, cy + 0.72 * m.row, m.heading, head);
             cy += m.row;
             for e in entries {
                 let mid = cy + 0.5 * m.row;
                 out.push_str(&swatch_svg(&e.swatch, x, mid, m));
-                let _ = write!(
-                    out,
-                    "<text class=\"legend-entry\" x=\"{}\" y=\"{}\" font-size=\"{}\" fill=\"{}\">{}</text>",
-                    num(x + m.swatch + m.gap),
-                    num(mid + 0.36 * m.font),
-                    num(m.font),
-                    style::INK,
-                    escape(&e.label)
-                );
+                entry_text(&mut out, x + m.swatch + m.gap, mid, m.font, &e.label);
                 cy += m.row;
             }
         }
         out.push_str("</g>");
         out
     }
+}
+
+/// The white panel (a little larger than `size`, corner at `at`) behind a legend that sits
+/// over the plot.
+pub fn panel(out: &mut String, at: Px, size: (f64, f64), s: f64, opacity: f64) {
+    let p = 7.0 * s;
+    let _ = write!(
+        out,
+        "<rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" rx=\"{}\" fill=\"#ffffff\" fill-opacity=\"{}\" stroke=\"#d4d4d4\" stroke-width=\"{}\"/>",
+        num(at[0] - p),
+        num(at[1] - p),
+        num(size.0 + 2.0 * p),
+        num(size.1 + 2.0 * p),
+        num(3.0 * s),
+        num(opacity),
+        num(0.8 * s)
+    );
+}
+
+/// Letter spacing of a group heading, in em.
+const HEADING_SPACING: f64 = 0.08;
+
+/// Width (px) of a group heading at `size` px, letter spacing included.
+pub fn heading_width(text: &str, size: f64) -> f64 {
+    spaced_width(text, size, HEADING_SPACING * size)
+}
+
+/// A group heading (capitals, spaced out) with its baseline at `y`.
+pub fn heading_text(out: &mut String, x: f64, y: f64, size: f64, text: &str) {
+    let _ = write!(
+        out,
+        "<text class=\"legend-heading\" x=\"{}\" y=\"{}\" font-size=\"{}\" letter-spacing=\"{}\" fill=\"{}\"{}>{}</text>",
+        num(x),
+        num(y),
+        num(size),
+        num(HEADING_SPACING * size),
+        style::INK_SOFT,
+        fit_length(heading_width(text, size)),
+        escape(text)
+    );
+}
+
+/// An entry's words starting at `x`, centred on the row whose middle is `mid`.
+pub fn entry_text(out: &mut String, x: f64, mid: f64, size: f64, label: &str) {
+    let _ = write!(
+        out,
+        "<text class=\"legend-entry\" x=\"{}\" y=\"{}\" font-size=\"{}\" fill=\"{}\"{}>{}</text>",
+        num(x),
+        num(mid + 0.36 * size),
+        num(size),
+        style::INK,
+        fit_attrs(label, size),
+        escape(label)
+    );
 }
 
 fn swatch_svg(sw: &Swatch, x: f64, mid: f64, m: &Metrics) -> String {
@@ -175,15 +204,7 @@ fn swatch_svg(sw: &Swatch, x: f64, mid: f64, m: &Metrics) -> String {
             dash,
             round,
         } => {
-            let dash = dash
-                .map(|(a, b)| {
-                    format!(
-                        " stroke-dasharray=\"{} {}\"",
-                        num((a * s).max(0.01)),
-                        num(b * s)
-                    )
-                })
-                .unwrap_or_default();
+            let dash = dasharray(*dash, s);
             let cap = if *round {
                 " stroke-linecap=\"round\""
             } else {

@@ -17,6 +17,7 @@
 //! assert!(svg.starts_with("<svg"));
 //! ```
 
+mod axes;
 mod chart;
 mod geometry;
 mod legend;
@@ -146,6 +147,5 @@ pub fn svg_to_png(svg: &str, width: u32, height: u32) -> Result<Vec<u8>, FigureE
 
 /// The scene as a PNG of `opts.width`×`opts.height` pixels.
 pub fn render_png(scene: &Scene, opts: &FigureOptions) -> Result<Vec<u8>, FigureError> {
-    raster::check_size(opts.width, opts.height)?;
-    svg_to_png(&render_svg(scene, opts), opts.width, opts.height)
+    raster::figure_png(opts.width, opts.height, || render_svg(scene, opts))
 }

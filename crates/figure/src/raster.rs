@@ -27,6 +27,17 @@ fn fonts() -> &'static (Arc<fontdb::Database>, String) {
     })
 }
 
+/// The SVG as resvg reads it, text laid out in the bundled font.
+pub fn parse(svg: &str) -> Result<usvg::Tree, FigureError> {
+    let (db, family) = fonts();
+    let opt = usvg::Options {
+        fontdb: Arc::clone(db),
+        font_family: family.clone(),
+        ..usvg::Options::default()
+    };
+    usvg::Tree::from_str(svg, &opt).map_err(|e| FigureError::Parse(e.to_string()))
+}
+
 /// Checks a raster size.
 pub fn check_size(width: u32, height: u32) -> Result<(), FigureError> {
     if width == 0 || height == 0 || width > MAX_SIZE || height > MAX_SIZE {
@@ -35,16 +46,20 @@ pub fn check_size(width: u32, height: u32) -> Result<(), FigureError> {
     Ok(())
 }
 
+/// A figure as a `width`×`height` PNG: the size is checked before `svg` is asked to draw it.
+pub fn figure_png(
+    width: u32,
+    height: u32,
+    svg: impl FnOnce() -> String,
+) -> Result<Vec<u8>, FigureError> {
+    check_size(width, height)?;
+    svg_to_png(&svg(), width, height)
+}
+
 /// Rasterises `svg` to a `width`×`height` PNG on white; see [`crate::svg_to_png`].
 pub fn svg_to_png(svg: &str, width: u32, height: u32) -> Result<Vec<u8>, FigureError> {
     check_size(width, height)?;
-    let (db, family) = fonts();
-    let opt = usvg::Options {
-        fontdb: Arc::clone(db),
-        font_family: family.clone(),
-        ..usvg::Options::default()
-    };
-    let tree = usvg::Tree::from_str(svg, &opt).map_err(|e| FigureError::Parse(e.to_string()))?;
+    let tree = parse(svg)?;
     let mut pixmap = Pixmap::new(width, height).ok_or(FigureError::BadSize { width, height })?;
     pixmap.fill(resvg::tiny_skia::Color::WHITE);
     let size = tree.size();

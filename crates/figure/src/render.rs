@@ -11,13 +11,14 @@ use std::fmt::Write as _;
 use quarry_core::scene::{CycleStability, DirectionField, ManifoldKind, Point, Scene};
 
 use crate::FigureOptions;
+use crate::RenderedLayers;
+use crate::axes::{AxisTicks, Page, max_label_width, tick_target};
 use crate::geometry::{CLIP_SLACK_PX, Frame, Px, Rect, point_and_tangent_at, screen_runs};
 use crate::legend::{Entry, Legend, Metrics, Swatch};
 use crate::style::{self, Mark};
-use crate::svg::{escape, num, path_data};
-use crate::text::{text_width, wrap};
-use crate::ticks::{Tick, TickLabel, ticks};
-use crate::{MAX_SIZE, RenderedLayers};
+use crate::svg::{dasharray, num, path_data};
+use crate::text::name_or;
+use crate::ticks::{Tick, ticks};
 
 /// Id of the plot-area clip path.
 const CLIP_ID: &str = "quarry-plot-area";
@@ -25,71 +26,14 @@ const CLIP_ID: &str = "quarry-plot-area";
 /// Below this plot size (px) the figure is only the plot: no axes, title or legend.
 const MIN_DECORATED_PLOT: f64 = 40.0;
 
-/// The figure scale: 1 at the default 900×650, growing and shrinking gently with the size so
-/// text stays readable when the figure is placed at report width.
-fn figure_scale(w: f64, h: f64) -> f64 {
-    (w / 900.0).min(h / 650.0).sqrt().clamp(0.6, 3.0)
-}
-
-/// Sizes of the text (px) at one figure scale.
-struct Fonts {
-    title: f64,
-    axis: f64,
-    tick: f64,
-    caption: f64,
-}
-
-impl Fonts {
-    fn new(s: f64) -> Self {
-        Self {
-            title: 18.0 * s,
-            axis: 14.0 * s,
-            tick: 12.0 * s,
-            caption: 11.0 * s,
-        }
-    }
-}
-
-/// Estimated width of a tick label (px).
-fn label_width(l: &TickLabel, size: f64) -> f64 {
-    let mut w = text_width(&l.mantissa, size);
-    if let Some(e) = l.exponent {
-        w += text_width("×10", size) + text_width(&format!("−{}", e.abs()), size * 0.72);
-    }
-    w
-}
-
-/// The tick label as SVG text content (exponent raised and smaller).
-fn label_svg(l: &TickLabel, size: f64) -> String {
-    let mut s = escape(&l.mantissa);
-    if let Some(e) = l.exponent {
-        let exp = if e < 0 {
-            format!("\u{2212}{}", e.unsigned_abs())
-        } else {
-            e.to_string()
-        };
-        let _ = write!(
-            s,
-            "×10<tspan dy=\"{}\" font-size=\"{}\">{exp}</tspan>",
-            num(-0.42 * size),
-            num(0.72 * size)
-        );
-    }
-    s
-}
-
-fn tick_target(len_px: f64, spacing_px: f64) -> usize {
-    ((len_px / spacing_px).round() as usize).clamp(2, 10)
-}
+/// Height (px) at which the figure scale is 1 (at 900 px wide).
+const REFERENCE_HEIGHT: f64 = 650.0;
 
 /// Everything decided before drawing.
 struct Layout {
-    s: f64,
-    fonts: Fonts,
+    page: Page,
     frame: Frame,
     decorated: bool,
-    title: Option<String>,
-    caption: Vec<String>,
     x_ticks: Vec<Tick>,
     y_ticks: Vec<Tick>,
     legend: Legend,
@@ -97,38 +41,12 @@ struct Layout {
     legend_at: Option<(Px, bool)>,
 }
 
-fn layout(scene: &Scene, opts: &FigureOptions, w: f64, h: f64, legend: Legend) -> Layout {
-    let s = figure_scale(w, h);
-    let fonts = Fonts::new(s);
-    let pad = 14.0 * s;
-    let title = opts
-        .title
-        .clone()
-        .unwrap_or_else(|| scene.title.clone())
-        .trim()
-        .to_owned();
-    let title = (!title.is_empty()).then_some(title);
-    let caption = opts
-        .caption
-        .as_deref()
-        .map(|c| wrap(c, fonts.caption, (w - 2.0 * pad).max(1.0), 4))
-        .unwrap_or_default();
+fn layout(scene: &Scene, mut page: Page, legend: Legend) -> Layout {
+    let (w, h, s, pad, top) = (page.w, page.h, page.s, page.pad, page.top);
     let lm = Metrics::new(s);
     let (legend_w, legend_h) = legend.size(&lm);
 
-    let top = pad
-        + if title.is_some() {
-            fonts.title + 14.0 * s
-        } else {
-            4.0 * s
-        };
-    let caption_h = if caption.is_empty() {
-        0.0
-    } else {
-        caption.len() as f64 * fonts.caption * 1.35 + 8.0 * s
-    };
-    let bottom = h - pad - caption_h - (fonts.tick + 10.0 * s) - (fonts.axis + 10.0 * s);
-    let plot_h = bottom - top;
+    let plot_h = page.bottom - top;
 
     // The y tick labels depend only on the plot height; measure them to place the left edge.
     let window = Frame::new(
@@ -141,11 +59,8 @@ fn layout(scene: &Scene, opts: &FigureOptions, w: f64, h: f64, legend: Legend) -
         },
     );
     let y_ticks = ticks(window.y0, window.y1, tick_target(plot_h, 60.0 * s));
-    let y_label_w = y_ticks
-        .iter()
-        .map(|t| label_width(&t.label, fonts.tick))
-        .fold(0.0, f64::max);
-    let left = pad + fonts.axis + 12.0 * s + y_label_w + 9.0 * s;
+    let y_label_w = max_label_width(y_ticks.iter().map(|t| &t.label), page.fonts.tick);
+    let left = page.plot_left(y_label_w);
     let mut right = w - pad - 12.0 * s;
     let mut legend_at = None;
     let legend_outside = !legend.is_empty() && legend_w + 20.0 * s < 0.3 * w;
@@ -166,13 +81,11 @@ fn layout(scene: &Scene, opts: &FigureOptions, w: f64, h: f64, legend: Legend) -
             width: w,
             height: h,
         };
+        page.undecorated();
         return Layout {
-            s,
-            fonts,
+            page,
             frame: Frame::new(&scene.window, plot),
             decorated,
-            title: None,
-            caption: Vec::new(),
             x_ticks: Vec::new(),
             y_ticks: Vec::new(),
             legend,
@@ -195,12 +108,9 @@ fn layout(scene: &Scene, opts: &FigureOptions, w: f64, h: f64, legend: Legend) -
     let frame = Frame::new(&scene.window, plot);
     let x_ticks = ticks(frame.x0, frame.x1, tick_target(plot.width, 90.0 * s));
     Layout {
-        s,
-        fonts,
+        page,
         frame,
         decorated,
-        title,
-        caption,
         x_ticks,
         y_ticks,
         legend,
@@ -250,16 +160,21 @@ fn mid_arrow(runs: &[Vec<Px>], frac: f64, reverse: bool, len: f64) -> Option<Str
 
 /// Renders the scene; see [`crate::render_svg`].
 pub fn render(scene: &Scene, opts: &FigureOptions) -> (String, RenderedLayers) {
-    let w = f64::from(opts.width.clamp(1, MAX_SIZE));
-    let h = f64::from(opts.height.clamp(1, MAX_SIZE));
-    let s = figure_scale(w, h);
+    let page = Page::new(
+        opts.width,
+        opts.height,
+        REFERENCE_HEIGHT,
+        Some(opts.title.as_deref().unwrap_or(&scene.title)),
+        opts.caption.as_deref(),
+    );
+    let s = page.s;
     let probe = Frame::new(
         &scene.window,
         Rect {
             left: 0.0,
             top: 0.0,
-            width: w,
-            height: h,
+            width: page.w,
+            height: page.h,
         },
     );
     let mut drawn = RenderedLayers::default();
@@ -269,39 +184,15 @@ pub fn render(scene: &Scene, opts: &FigureOptions) -> (String, RenderedLayers) {
     // The layout needs the legend's size before anything is drawn, so the legend is planned
     // from what the scene holds, the options allow and the window shows.
     let legend = plan_legend(scene, opts, &probe);
-    let lay = layout(scene, opts, w, h, legend);
+    let lay = layout(scene, page, legend);
     let frame = lay.frame;
     let plot = frame.plot;
     let clip = plot.grown(CLIP_SLACK_PX * s);
 
-    let _ = write!(
-        doc.out,
-        "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"{}\" height=\"{}\" viewBox=\"0 0 {} {}\" font-family=\"{}\">",
-        w,
-        h,
-        w,
-        h,
-        style::FONT_FAMILY
-    );
-    if let Some(t) = &lay.title {
-        let _ = write!(doc.out, "<title>{}</title>", escape(t));
-    }
-    let _ = write!(
-        doc.out,
-        "<defs><clipPath id=\"{CLIP_ID}\"><rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\"/></clipPath></defs>",
-        num(plot.left),
-        num(plot.top),
-        num(plot.width),
-        num(plot.height)
-    );
-    let _ = write!(
-        doc.out,
-        "<rect width=\"{}\" height=\"{}\" fill=\"#ffffff\"/>",
-        w, h
-    );
-
+    lay.page.open(&mut doc.out, &[(CLIP_ID.to_owned(), plot)]);
     if lay.decorated {
-        grid(&mut doc, &lay);
+        lay.page
+            .grid(&mut doc.out, &frame, &lay.x_ticks, &lay.y_ticks);
     }
 
     let _ = write!(doc.out, "<g clip-path=\"url(#{CLIP_ID})\">");
@@ -314,173 +205,37 @@ pub fn render(scene: &Scene, opts: &FigureOptions) -> (String, RenderedLayers) {
     equilibria(&mut doc, scene, &frame, s, &mut drawn);
 
     if let Some((at, boxed)) = lay.legend_at {
-        doc.push(&lay.legend.svg(at[0], at[1], &Metrics::new(lay.s), boxed));
+        doc.push(&lay.legend.svg(at[0], at[1], &Metrics::new(s), boxed));
     }
-    if let Some(t) = &lay.title {
-        let _ = write!(
-            doc.out,
-            "<text class=\"title\" x=\"{}\" y=\"{}\" font-size=\"{}\" fill=\"{}\">{}</text>",
-            num(plot.left),
-            num(14.0 * s + lay.fonts.title * 0.8),
-            num(lay.fonts.title),
-            style::INK,
-            escape(t)
-        );
-    }
-    if !lay.caption.is_empty() {
-        let lh = lay.fonts.caption * 1.35;
-        let y0 = h - 14.0 * s - (lay.caption.len() as f64 - 1.0) * lh - 0.25 * lay.fonts.caption;
-        for (i, line) in lay.caption.iter().enumerate() {
-            let _ = write!(
-                doc.out,
-                "<text class=\"caption\" x=\"{}\" y=\"{}\" font-size=\"{}\" fill=\"{}\">{}</text>",
-                num(14.0 * s),
-                num(y0 + i as f64 * lh),
-                num(lay.fonts.caption),
-                style::INK_SOFT,
-                escape(line)
-            );
-        }
-    }
+    lay.page.draw_title(&mut doc.out, plot.left);
+    lay.page.draw_caption(&mut doc.out);
     doc.push("</svg>");
     drawn.legend = lay.legend_at.is_some();
     (doc.out, drawn)
 }
 
-/// Faint grid lines at the interior ticks.
-fn grid(doc: &mut Doc, lay: &Layout) {
-    let f = &lay.frame;
-    let p = &f.plot;
-    let mut d = String::new();
-    for t in &lay.x_ticks {
-        let x = f.screen_x(t.value);
-        if x > p.left + 0.5 && x < p.right() - 0.5 {
-            let _ = write!(d, "M{} {}V{}", num(x), num(p.top), num(p.bottom()));
-        }
-    }
-    for t in &lay.y_ticks {
-        let y = f.screen_y(t.value);
-        if y > p.top + 0.5 && y < p.bottom() - 0.5 {
-            let _ = write!(d, "M{} {}H{}", num(p.left), num(y), num(p.right()));
-        }
-    }
-    if !d.is_empty() {
-        let _ = write!(
-            doc.out,
-            "<path class=\"grid\" d=\"{d}\" stroke=\"{}\" stroke-width=\"{}\" fill=\"none\"/>",
-            style::GRID,
-            num(0.8 * lay.s)
-        );
-    }
-}
-
 /// Frame, ticks, tick labels and axis labels.
 fn axes(doc: &mut Doc, scene: &Scene, lay: &Layout) {
-    let s = lay.s;
+    let page = &lay.page;
     let f = &lay.frame;
-    let p = &f.plot;
-    let tick_len = 5.0 * s;
-    let mut d = String::new();
-    for t in &lay.x_ticks {
-        let x = f.screen_x(t.value);
-        let _ = write!(d, "M{} {}v{}", num(x), num(p.bottom()), num(tick_len));
-    }
-    for t in &lay.y_ticks {
-        let y = f.screen_y(t.value);
-        let _ = write!(d, "M{} {}h{}", num(p.left), num(y), num(-tick_len));
-    }
-    let _ = write!(
-        doc.out,
-        "<rect class=\"frame\" x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" fill=\"none\" stroke=\"{}\" stroke-width=\"{}\"/>",
-        num(p.left),
-        num(p.top),
-        num(p.width),
-        num(p.height),
-        style::FRAME,
-        num(s)
-    );
-    if !d.is_empty() {
-        let _ = write!(
-            doc.out,
-            "<path class=\"ticks\" d=\"{d}\" stroke=\"{}\" stroke-width=\"{}\" fill=\"none\"/>",
-            style::FRAME,
-            num(s)
-        );
-    }
-    let fs = lay.fonts.tick;
-    let _ = write!(
-        doc.out,
-        "<g class=\"tick-labels\" font-size=\"{}\" fill=\"{}\">",
-        num(fs),
-        style::INK_SOFT
-    );
-    for t in &lay.x_ticks {
-        let _ = write!(
-            doc.out,
-            "<text x=\"{}\" y=\"{}\" text-anchor=\"middle\">{}</text>",
-            num(f.screen_x(t.value)),
-            num(p.bottom() + tick_len + 3.0 * s + fs * 0.8),
-            label_svg(&t.label, fs)
-        );
-    }
-    for t in &lay.y_ticks {
-        let _ = write!(
-            doc.out,
-            "<text x=\"{}\" y=\"{}\" text-anchor=\"end\">{}</text>",
-            num(p.left - tick_len - 4.0 * s),
-            num(f.screen_y(t.value) + fs * 0.35),
-            label_svg(&t.label, fs)
-        );
-    }
-    doc.push("</g>");
+    let ticks = AxisTicks {
+        x: &lay.x_ticks,
+        y: &lay.y_ticks,
+        right: &[],
+    };
+    page.frame_and_ticks(&mut doc.out, f, &ticks);
+    page.tick_labels(&mut doc.out, f, &ticks);
     let [xn, yn] = axis_names(scene);
-    let fa = lay.fonts.axis;
-    let _ = write!(
-        doc.out,
-        "<text class=\"axis-label\" x=\"{}\" y=\"{}\" font-size=\"{}\" text-anchor=\"middle\" fill=\"{}\">{}</text>",
-        num(p.left + 0.5 * p.width),
-        num(p.bottom() + tick_len + 3.0 * s + fs + 10.0 * s + fa * 0.8),
-        num(fa),
-        style::INK,
-        escape(&xn)
-    );
-    let yx = p.left
-        - tick_len
-        - 4.0 * s
-        - lay
-            .y_ticks
-            .iter()
-            .map(|t| label_width(&t.label, fs))
-            .fold(0.0, f64::max)
-        - 10.0 * s
-        - fa * 0.25;
-    let yy = p.top + 0.5 * p.height;
-    let _ = write!(
-        doc.out,
-        "<text class=\"axis-label\" x=\"{}\" y=\"{}\" font-size=\"{}\" text-anchor=\"middle\" fill=\"{}\" transform=\"rotate(-90 {} {})\">{}</text>",
-        num(yx),
-        num(yy),
-        num(fa),
-        style::INK,
-        num(yx),
-        num(yy),
-        escape(&yn)
-    );
+    page.x_axis_name(&mut doc.out, &f.plot, &xn);
+    let label_w = max_label_width(lay.y_ticks.iter().map(|t| &t.label), page.fonts.tick);
+    page.y_axis_name(&mut doc.out, &f.plot, label_w, page.fonts.axis, &yn);
 }
 
 /// The variable names, with "x" and "y" standing in for blank ones.
 fn axis_names(scene: &Scene) -> [String; 2] {
-    let pick = |n: &str, d: &str| {
-        let n = n.trim();
-        if n.is_empty() {
-            d.to_owned()
-        } else {
-            n.to_owned()
-        }
-    };
     [
-        pick(&scene.variables[0], "x"),
-        pick(&scene.variables[1], "y"),
+        name_or(&scene.variables[0], "x"),
+        name_or(&scene.variables[1], "y"),
     ]
 }
 
@@ -672,15 +427,7 @@ fn field_has_arrows(field: &DirectionField, f: &Frame) -> bool {
 }
 
 fn dash_attr(dash: Option<(f64, f64)>, s: f64, round: bool) -> String {
-    let mut a = String::new();
-    if let Some((on, off)) = dash {
-        let _ = write!(
-            a,
-            " stroke-dasharray=\"{} {}\"",
-            num((on * s).max(0.01)),
-            num(off * s)
-        );
-    }
+    let mut a = dasharray(dash, s);
     if round {
         a.push_str(" stroke-linecap=\"round\"");
     }

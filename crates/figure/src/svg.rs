@@ -66,6 +66,20 @@ pub fn escape(text: &str) -> String {
     s
 }
 
+/// A ` stroke-dasharray` attribute for a dash pattern (on, off) given at figure scale 1,
+/// drawn at scale `s`; nothing for a solid line. A zero-length dash stays just above zero
+/// so that round caps still draw dots.
+pub fn dasharray(dash: Option<(f64, f64)>, s: f64) -> String {
+    dash.map(|(on, off)| {
+        format!(
+            " stroke-dasharray=\"{} {}\"",
+            num((on * s).max(0.01)),
+            num(off * s)
+        )
+    })
+    .unwrap_or_default()
+}
+
 /// Path data ("M x y L x y x y …") for a set of pixel runs.
 pub fn path_data(runs: &[Vec<Px>]) -> String {
     let mut d = String::new();

@@ -6,6 +6,7 @@ use quarry_core::linear::Class;
 use quarry_core::sweep::{BifurcationKind, Sweep};
 
 use crate::chart::{Axis, CURVE, CYCLE_RANGE, Chart, ChartSpec, Marker, Swatch, padded};
+use crate::text::{name_or, short_number};
 use crate::{FigureError, raster};
 
 /// How the branch diagram is drawn.
@@ -142,19 +143,11 @@ pub fn render_sweep_svg(sweep: &Sweep, opts: &SweepFigure) -> String {
             }
         }
     }
-    let name = |s: &str, d: &str| {
-        let s = s.trim();
-        if s.is_empty() {
-            d.to_owned()
-        } else {
-            s.to_owned()
-        }
-    };
-    let var_name = name(&opts.variable_names[v], if v == 0 { "x" } else { "y" });
+    let var_name = name_or(&opts.variable_names[v], if v == 0 { "x" } else { "y" });
     let param_name = opts
         .param_label
         .clone()
-        .unwrap_or_else(|| name(&sweep.param, "parameter"));
+        .unwrap_or_else(|| name_or(&sweep.param, "parameter"));
     let spec = ChartSpec {
         width: opts.width,
         height: opts.height,
@@ -262,42 +255,25 @@ pub fn render_sweep_svg(sweep: &Sweep, opts: &SweepFigure) -> String {
     let mut overlay = String::new();
     for b in &sweep.bifurcations {
         let (m, name) = kind_marker(b.kind);
-        let label = format!("{name} {}", short(b.value));
+        let label = format!("{name} {}", short_number(b.value));
         chart.marker(&mut overlay, m, [b.value, pick(b.x, b.y)], &label, false);
     }
     chart.close(&mut out, &spec, &overlay);
     out
 }
 
-/// A value for a label: four significant digits, plain.
-pub(crate) fn short(v: f64) -> String {
-    if v == 0.0 || !v.is_finite() {
-        return format!("{v}");
-    }
-    let digits = (3 - v.abs().log10().floor() as i32).clamp(0, 8) as usize;
-    let s = format!("{v:.digits$}");
-    let s = if s.contains('.') {
-        s.trim_end_matches('0').trim_end_matches('.').to_owned()
-    } else {
-        s
-    };
-    s.replace('-', "\u{2212}")
-}
-
 /// The branch diagram as a `width`×`height` PNG.
 pub fn render_sweep_png(sweep: &Sweep, opts: &SweepFigure) -> Result<Vec<u8>, FigureError> {
-    raster::check_size(opts.width, opts.height)?;
-    raster::svg_to_png(&render_sweep_svg(sweep, opts), opts.width, opts.height)
+    raster::figure_png(opts.width, opts.height, || render_sweep_svg(sweep, opts))
 }
 
 #[cfg(test)]
 mod tests {
+    use super::*;
+    use crate::tests::{assert_text_is_fitted, doc_texts, inked_in_middle};
     use quarry_core::library;
     use quarry_core::model::Model;
     use quarry_core::sweep::{SweepOptions, sweep};
-    use resvg::tiny_skia::Pixmap;
-
-    use super::*;
 
     fn holling_sweep() -> Sweep {
         let m =
@@ -326,16 +302,7 @@ mod tests {
         };
         assert!(class("branch") >= 3, "stable and unstable pieces");
         assert_eq!(class("cycle-range"), 2, "min and max of one cycle family");
-        let texts: Vec<String> = doc
-            .descendants()
-            .filter(|n| n.has_tag_name("text"))
-            .map(|n| {
-                n.descendants()
-                    .filter(|t| t.is_text())
-                    .filter_map(|t| t.text())
-                    .collect()
-            })
-            .collect();
+        let texts = doc_texts(&doc);
         for want in ["predator", "K", "Hopf 3", "stable equilibria", "Hopf point"] {
             assert!(texts.iter().any(|t| t == want), "{want}: {texts:?}");
         }
@@ -345,6 +312,8 @@ mod tests {
         );
         // Dashed pieces are the unstable ones.
         assert!(svg.contains("stroke-dasharray"));
+        // Title, axis names, legend entries and the Hopf label keep their measured length.
+        assert!(assert_text_is_fitted(&svg) >= 6);
     }
 
     #[test]
@@ -356,15 +325,9 @@ mod tests {
             ..SweepFigure::default()
         };
         let png = render_sweep_png(&s, &fig).expect("png");
-        let pix = Pixmap::decode_png(&png).expect("decodes");
-        assert_eq!((pix.width(), pix.height()), (640, 420));
         // The middle of the page is the plot: some of its pixels are not white.
-        let (w, h) = (pix.width() as usize, pix.height() as usize);
-        let data = pix.data();
-        let inked = (h / 4..3 * h / 4)
-            .flat_map(|y| (w / 4..3 * w / 4).map(move |x| (y * w + x) * 4))
-            .filter(|&i| data[i] < 200 || data[i + 1] < 200 || data[i + 2] < 200)
-            .count();
+        let (size, inked) = inked_in_middle(&png, 4);
+        assert_eq!(size, (640, 420));
         assert!(inked > 200, "{inked} inked pixels");
         assert!(render_sweep_png(&s, &SweepFigure { width: 0, ..fig }).is_err());
     }

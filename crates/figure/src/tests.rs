@@ -16,6 +16,89 @@ use resvg::tiny_skia::Pixmap;
 
 use crate::{FigureError, FigureOptions, render_png, render_svg, svg_to_png};
 
+/// The size of a PNG and how many pixels in its middle (from 1/`part` to (`part` − 1)/`part`
+/// of each side) are not near-white.
+pub(crate) fn inked_in_middle(png: &[u8], part: usize) -> ((u32, u32), usize) {
+    let pix = Pixmap::decode_png(png).expect("decodes");
+    let (w, h) = (pix.width() as usize, pix.height() as usize);
+    let data = pix.data();
+    let inked = (h / part..(part - 1) * h / part)
+        .flat_map(|y| (w / part..(part - 1) * w / part).map(move |x| (y * w + x) * 4))
+        .filter(|&i| data[i] < 200 || data[i + 1] < 200 || data[i + 2] < 200)
+        .count();
+    ((pix.width(), pix.height()), inked)
+}
+
+/// Checks that a figure keeps to its layout in any font: every text element but the tick
+/// labels carries `textLength` with `lengthAdjust="spacingAndGlyphs"`, that length is the
+/// width measured in the bundled font (so the PNG is not distorted), and the box it forces
+/// lies on the page. Returns how many elements were checked.
+pub(crate) fn assert_text_is_fitted(svg: &str) -> usize {
+    let doc = roxmltree::Document::parse(svg).expect("well-formed SVG");
+    let root = doc.root_element();
+    let size = |name: &str| -> f64 {
+        root.attribute(name)
+            .and_then(|v| v.parse().ok())
+            .expect("page size")
+    };
+    let (w, h) = (size("width"), size("height"));
+    let mut checked = 0;
+    for n in doc.descendants().filter(|n| n.has_tag_name("text")) {
+        if n.ancestors()
+            .any(|a| a.attribute("class") == Some("tick-labels"))
+        {
+            continue;
+        }
+        let words: String = n
+            .descendants()
+            .filter(|d| d.is_text())
+            .filter_map(|d| d.text())
+            .collect();
+        let num = |name: &str| -> f64 {
+            n.attribute(name)
+                .and_then(|v| v.parse().ok())
+                .unwrap_or_else(|| panic!("{words:?}: no {name}"))
+        };
+        assert_eq!(
+            n.attribute("lengthAdjust"),
+            Some("spacingAndGlyphs"),
+            "{words:?}"
+        );
+        let length = num("textLength");
+        let font = num("font-size");
+        let spacing = n
+            .attribute("letter-spacing")
+            .and_then(|v| v.parse().ok())
+            .unwrap_or(0.0);
+        let measured = crate::text::spaced_width(&words, font, spacing);
+        // Attributes are written to 0.01 px: the font size's rounding scales the whole
+        // width, the letter spacing's adds up per character.
+        let chars = words.chars().count() as f64;
+        let rounding = 0.005 + 0.005 * length / font + 0.005 * chars * f64::from(spacing > 0.0);
+        assert!(
+            (length - measured).abs() <= rounding,
+            "{words:?}: textLength {length}, measured {measured}"
+        );
+        let (x, y) = (num("x"), num("y"));
+        let (lo, hi, room) = if n.attribute("transform").is_some() {
+            // Axis names turned by ±90° about their anchor, centred on it.
+            (y - 0.5 * length, y + 0.5 * length, h)
+        } else {
+            match n.attribute("text-anchor") {
+                Some("middle") => (x - 0.5 * length, x + 0.5 * length, w),
+                Some("end") => (x - length, x, w),
+                _ => (x, x + length, w),
+            }
+        };
+        assert!(
+            lo >= -0.5 && hi <= room + 0.5,
+            "{words:?} spans {lo:.1} to {hi:.1} on a page of {room}"
+        );
+        checked += 1;
+    }
+    checked
+}
+
 fn model(key: &str) -> Model {
     let spec = builtin(key).expect("builtin").spec();
     Model::new(&spec).expect("model")
@@ -202,7 +285,8 @@ fn kitchen_sink() -> Scene {
     }
 }
 
-fn doc_texts(doc: &roxmltree::Document) -> Vec<String> {
+/// The words of every `<text>` element, its `<tspan>`s joined.
+pub(crate) fn doc_texts(doc: &roxmltree::Document) -> Vec<String> {
     doc.descendants()
         .filter(|n| n.has_tag_name("text"))
         .map(|n| {
@@ -276,6 +360,25 @@ fn lotka_volterra_svg_has_title_axes_legend_and_one_path_per_orbit() {
     }
     assert!(!svg.contains("0000000001") && !svg.contains("9999999"));
     assert!(doc.descendants().any(|n| n.has_tag_name("clipPath")));
+}
+
+#[test]
+fn phase_portrait_text_keeps_to_its_boxes_in_any_font() {
+    for scene in [lv_scene(), kitchen_sink()] {
+        for (width, height) in [(900, 650), (600, 450), (1800, 1300)] {
+            let svg = render_svg(
+                &scene,
+                &FigureOptions {
+                    width,
+                    height,
+                    caption: Some(crate::CAUTION.into()),
+                    ..FigureOptions::default()
+                },
+            );
+            // Title, caption lines, two axis names, legend headings and entries.
+            assert!(assert_text_is_fitted(&svg) >= 10, "{width}×{height}");
+        }
+    }
 }
 
 #[test]

@@ -15,15 +15,23 @@ use std::fmt::Write as _;
 use quarry_core::model::Window;
 use quarry_core::scene::Scene;
 
+use crate::FigureError;
+use crate::axes::{AxisTicks, Page, max_label_width, tick_target};
 use crate::geometry::{CLIP_SLACK_PX, Frame, Px, Rect, screen_runs};
+use crate::legend;
 use crate::style;
-use crate::svg::{escape, num, path_data};
-use crate::text::{text_width, wrap};
-use crate::ticks::{Tick, TickLabel, ticks};
-use crate::{FigureError, MAX_SIZE};
+use crate::svg::{num, path_data};
+use crate::text::{fit_attrs, name_or, short_number, text_width};
+use crate::ticks::{Tick, ticks};
 
 /// At most this many orbits are listed in the legend; the rest are summed up in one line.
 const MAX_LEGEND_ENTRIES: usize = 12;
+
+/// What an empty figure says.
+const NO_ORBIT: &str = "no orbit to show";
+
+/// Size of the legend's heading at figure scale 1 (px).
+const LEGEND_HEADING: f64 = 10.5;
 
 /// Longest legend label (characters) before it is shortened with "…".
 const MAX_LABEL_CHARS: usize = 32;
@@ -66,7 +74,11 @@ impl TimeSeries {
                 .orbits
                 .iter()
                 .map(|o| SeriesOrbit {
-                    label: format!("from ({}, {})", short(o.seed[0]), short(o.seed[1])),
+                    label: format!(
+                        "from ({}, {})",
+                        short_number(o.seed[0]),
+                        short_number(o.seed[1])
+                    ),
                     times: o.times.clone(),
                     values: o.points.clone(),
                 })
@@ -102,21 +114,6 @@ impl Default for TimeSeriesOptions {
     }
 }
 
-/// A number for a legend label: about four significant digits, no trailing zeros.
-fn short(v: f64) -> String {
-    if v == 0.0 || !v.is_finite() {
-        return format!("{}", if v == 0.0 { 0.0 } else { v });
-    }
-    let digits = (3 - v.abs().log10().floor() as i32).clamp(0, 8) as usize;
-    let s = format!("{v:.digits$}");
-    let s = if s.contains('.') {
-        s.trim_end_matches('0').trim_end_matches('.')
-    } else {
-        s.as_str()
-    };
-    s.replace('-', "\u{2212}")
-}
-
 /// `name (unit)`, or the name alone.
 fn with_unit(name: &str, unit: &str) -> String {
     let unit = unit.trim();
@@ -127,42 +124,8 @@ fn with_unit(name: &str, unit: &str) -> String {
     }
 }
 
-/// The figure scale: 1 at 900×560, as the phase portrait's (see `render::figure_scale`).
-fn figure_scale(w: f64, h: f64) -> f64 {
-    (w / 900.0).min(h / 560.0).sqrt().clamp(0.6, 3.0)
-}
-
-/// Estimated width of a tick label (px), as the phase portrait measures it.
-fn label_width(l: &TickLabel, size: f64) -> f64 {
-    let mut w = text_width(&l.mantissa, size);
-    if let Some(e) = l.exponent {
-        w += text_width("×10", size) + text_width(&format!("−{}", e.abs()), size * 0.72);
-    }
-    w
-}
-
-/// The tick label as SVG text content (exponent raised and smaller).
-fn label_svg(l: &TickLabel, size: f64) -> String {
-    let mut s = escape(&l.mantissa);
-    if let Some(e) = l.exponent {
-        let exp = if e < 0 {
-            format!("\u{2212}{}", e.unsigned_abs())
-        } else {
-            e.to_string()
-        };
-        let _ = write!(
-            s,
-            "×10<tspan dy=\"{}\" font-size=\"{}\">{exp}</tspan>",
-            num(-0.42 * size),
-            num(0.72 * size)
-        );
-    }
-    s
-}
-
-fn tick_target(len_px: f64, spacing_px: f64) -> usize {
-    ((len_px / spacing_px).round() as usize).clamp(2, 10)
-}
+/// Height (px) at which the figure scale is 1 (at 900 px wide).
+const REFERENCE_HEIGHT: f64 = 560.0;
 
 /// The range of the finite values, or `None`.
 fn finite_range(values: impl Iterator<Item = f64>) -> Option<(f64, f64)> {
@@ -206,25 +169,15 @@ fn clip_label(s: &str) -> String {
 /// Both variables against time as a standalone SVG document, `opts.width`×`opts.height`
 /// user units (sizes outside 1..=[`MAX_SIZE`] are clamped). Deterministic.
 pub fn render_time_series_svg(series: &TimeSeries, opts: &TimeSeriesOptions) -> String {
-    let w = f64::from(opts.width.clamp(1, MAX_SIZE));
-    let h = f64::from(opts.height.clamp(1, MAX_SIZE));
-    let s = figure_scale(w, h);
-    let (f_title, f_axis, f_tick, f_caption, f_legend) =
-        (18.0 * s, 14.0 * s, 12.0 * s, 11.0 * s, 12.0 * s);
-    let pad = 14.0 * s;
-
-    let title = opts
-        .title
-        .clone()
-        .unwrap_or_else(|| series.title.clone())
-        .trim()
-        .to_owned();
-    let title = (!title.is_empty()).then_some(title);
-    let caption = opts
-        .caption
-        .as_deref()
-        .map(|c| wrap(c, f_caption, (w - 2.0 * pad).max(1.0), 4))
-        .unwrap_or_default();
+    let page = Page::new(
+        opts.width,
+        opts.height,
+        REFERENCE_HEIGHT,
+        Some(opts.title.as_deref().unwrap_or(&series.title)),
+        opts.caption.as_deref(),
+    );
+    let (w, s, pad, top) = (page.w, page.s, page.pad, page.top);
+    let (f_axis, f_tick, f_legend) = (page.fonts.axis, page.fonts.tick, 12.0 * s);
 
     // Legend entries and width.
     let mut entries: Vec<(String, &'static str)> = series
@@ -251,23 +204,14 @@ pub fn render_time_series_svg(series: &TimeSeries, opts: &TimeSeriesOptions) -> 
     let legend_w = entries
         .iter()
         .map(|(l, _)| swatch + 8.0 * s + text_width(l, f_legend))
-        .fold(text_width("ORBITS", 10.5 * s) * 1.1, f64::max);
+        .fold(
+            legend::heading_width("ORBITS", LEGEND_HEADING * s),
+            f64::max,
+        );
     let show_legend = opts.show_legend && !entries.is_empty() && legend_w + 20.0 * s < 0.35 * w;
 
     // Vertical layout: title, two panels with a gap, time ticks and label, caption.
-    let top = pad
-        + if title.is_some() {
-            f_title + 14.0 * s
-        } else {
-            4.0 * s
-        };
-    let caption_h = if caption.is_empty() {
-        0.0
-    } else {
-        caption.len() as f64 * f_caption * 1.35 + 8.0 * s
-    };
-    let tick_len = 5.0 * s;
-    let bottom = h - pad - caption_h - (f_tick + 10.0 * s) - (f_axis + 10.0 * s);
+    let bottom = page.bottom;
     let gap = 16.0 * s;
     let panel_h = ((bottom - top - gap) / 2.0).max(1.0);
 
@@ -290,12 +234,8 @@ pub fn render_time_series_svg(series: &TimeSeries, opts: &TimeSeriesOptions) -> 
         let (a, b) = crate::geometry::sanitize_range(ranges[i].0, ranges[i].1);
         ticks(a, b, tick_target(panel_h, 42.0 * s))
     });
-    let y_label_w = y_ticks
-        .iter()
-        .flatten()
-        .map(|t| label_width(&t.label, f_tick))
-        .fold(0.0, f64::max);
-    let left = pad + f_axis + 12.0 * s + y_label_w + 9.0 * s;
+    let y_label_w = max_label_width(y_ticks.iter().flatten().map(|t| &t.label), f_tick);
+    let left = page.plot_left(y_label_w);
     let right = if show_legend {
         w - pad - legend_w - 20.0 * s
     } else {
@@ -321,53 +261,17 @@ pub fn render_time_series_svg(series: &TimeSeries, opts: &TimeSeriesOptions) -> 
     let decorated = plot_w >= 40.0 && panel_h >= 30.0;
 
     let mut out = String::with_capacity(32 * 1024);
-    let _ = write!(
-        out,
-        "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"{w}\" height=\"{h}\" viewBox=\"0 0 {w} {h}\" font-family=\"{}\">",
-        style::FONT_FAMILY
-    );
-    if let Some(t) = &title {
-        let _ = write!(out, "<title>{}</title>", escape(t));
-    }
-    out.push_str("<defs>");
-    for (i, f) in panels.iter().enumerate() {
-        let _ = write!(
-            out,
-            "<clipPath id=\"quarry-series-{i}\"><rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\"/></clipPath>",
-            num(f.plot.left),
-            num(f.plot.top),
-            num(f.plot.width),
-            num(f.plot.height)
-        );
-    }
-    out.push_str("</defs>");
-    let _ = write!(out, "<rect width=\"{w}\" height=\"{h}\" fill=\"#ffffff\"/>");
+    let clips: Vec<(String, Rect)> = panels
+        .iter()
+        .enumerate()
+        .map(|(i, f)| (format!("quarry-series-{i}"), f.plot))
+        .collect();
+    page.open(&mut out, &clips);
 
     for (i, f) in panels.iter().enumerate() {
         let p = f.plot;
         if decorated {
-            // Grid.
-            let mut d = String::new();
-            for t in &t_ticks {
-                let x = f.screen_x(t.value);
-                if x > p.left + 0.5 && x < p.right() - 0.5 {
-                    let _ = write!(d, "M{} {}V{}", num(x), num(p.top), num(p.bottom()));
-                }
-            }
-            for t in &y_ticks[i] {
-                let y = f.screen_y(t.value);
-                if y > p.top + 0.5 && y < p.bottom() - 0.5 {
-                    let _ = write!(d, "M{} {}H{}", num(p.left), num(y), num(p.right()));
-                }
-            }
-            if !d.is_empty() {
-                let _ = write!(
-                    out,
-                    "<path class=\"grid\" d=\"{d}\" stroke=\"{}\" stroke-width=\"{}\" fill=\"none\"/>",
-                    style::GRID,
-                    num(0.8 * s)
-                );
-            }
+            page.grid(&mut out, f, &t_ticks, &y_ticks[i]);
         }
         // Curves.
         let clip = p.grown(CLIP_SLACK_PX * s);
@@ -395,116 +299,45 @@ pub fn render_time_series_svg(series: &TimeSeries, opts: &TimeSeriesOptions) -> 
         if !decorated {
             continue;
         }
-        // Frame and ticks.
-        let mut d = String::new();
-        for t in &t_ticks {
-            let _ = write!(
-                d,
-                "M{} {}v{}",
-                num(f.screen_x(t.value)),
-                num(p.bottom()),
-                num(tick_len)
-            );
+        let mut ticks = AxisTicks {
+            x: &t_ticks,
+            y: &y_ticks[i],
+            right: &[],
+        };
+        page.frame_and_ticks(&mut out, f, &ticks);
+        // Time is labelled once, under the lower panel.
+        if i == 0 {
+            ticks.x = &[];
         }
-        for t in &y_ticks[i] {
-            let _ = write!(
-                d,
-                "M{} {}h{}",
-                num(p.left),
-                num(f.screen_y(t.value)),
-                num(-tick_len)
-            );
-        }
-        let _ = write!(
-            out,
-            "<rect class=\"frame\" x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" fill=\"none\" stroke=\"{}\" stroke-width=\"{}\"/>",
-            num(p.left),
-            num(p.top),
-            num(p.width),
-            num(p.height),
-            style::FRAME,
-            num(s)
-        );
-        if !d.is_empty() {
-            let _ = write!(
-                out,
-                "<path class=\"ticks\" d=\"{d}\" stroke=\"{}\" stroke-width=\"{}\" fill=\"none\"/>",
-                style::FRAME,
-                num(s)
-            );
-        }
-        let _ = write!(
-            out,
-            "<g class=\"tick-labels\" font-size=\"{}\" fill=\"{}\">",
-            num(f_tick),
-            style::INK_SOFT
-        );
-        if i == 1 {
-            for t in &t_ticks {
-                let _ = write!(
-                    out,
-                    "<text x=\"{}\" y=\"{}\" text-anchor=\"middle\">{}</text>",
-                    num(f.screen_x(t.value)),
-                    num(p.bottom() + tick_len + 3.0 * s + f_tick * 0.8),
-                    label_svg(&t.label, f_tick)
-                );
-            }
-        }
-        for t in &y_ticks[i] {
-            let _ = write!(
-                out,
-                "<text x=\"{}\" y=\"{}\" text-anchor=\"end\">{}</text>",
-                num(p.left - tick_len - 4.0 * s),
-                num(f.screen_y(t.value) + f_tick * 0.35),
-                label_svg(&t.label, f_tick)
-            );
-        }
-        out.push_str("</g>");
+        page.tick_labels(&mut out, f, &ticks);
         // The variable's name and unit, turned along the panel's side; smaller when long.
-        let name = series.variables[i].trim();
-        let name = if name.is_empty() { ["x", "y"][i] } else { name };
-        let label = with_unit(name, &series.units[i]);
+        let name = name_or(&series.variables[i], ["x", "y"][i]);
+        let label = with_unit(&name, &series.units[i]);
         let natural = text_width(&label, f_axis);
         let fa = if natural > p.height * 0.98 {
             (f_axis * p.height * 0.98 / natural).max(7.0 * s)
         } else {
             f_axis
         };
-        let yx = left - tick_len - 4.0 * s - y_label_w - 10.0 * s - fa * 0.25;
-        let yy = p.top + 0.5 * p.height;
-        let _ = write!(
-            out,
-            "<text class=\"axis-label\" x=\"{}\" y=\"{}\" font-size=\"{}\" text-anchor=\"middle\" fill=\"{}\" transform=\"rotate(-90 {} {})\">{}</text>",
-            num(yx),
-            num(yy),
-            num(fa),
-            style::INK,
-            num(yx),
-            num(yy),
-            escape(&label)
-        );
+        page.y_axis_name(&mut out, &p, y_label_w, fa, &label);
     }
     if decorated {
-        let p = panels[1].plot;
-        let _ = write!(
-            out,
-            "<text class=\"axis-label\" x=\"{}\" y=\"{}\" font-size=\"{}\" text-anchor=\"middle\" fill=\"{}\">{}</text>",
-            num(p.left + 0.5 * p.width),
-            num(p.bottom() + tick_len + 3.0 * s + f_tick + 10.0 * s + f_axis * 0.8),
-            num(f_axis),
-            style::INK,
-            escape(&with_unit("time", &series.time_unit))
+        page.x_axis_name(
+            &mut out,
+            &panels[1].plot,
+            &with_unit("time", &series.time_unit),
         );
     }
     if series.orbits.is_empty() && decorated {
         let p = panels[0].plot;
         let _ = write!(
             out,
-            "<text class=\"note\" x=\"{}\" y=\"{}\" font-size=\"{}\" text-anchor=\"middle\" fill=\"{}\">no orbit to show</text>",
+            "<text class=\"note\" x=\"{}\" y=\"{}\" font-size=\"{}\" text-anchor=\"middle\" fill=\"{}\"{}>{NO_ORBIT}</text>",
             num(p.left + 0.5 * p.width),
             num(p.top + 0.5 * p.height),
             num(f_axis),
-            style::INK_SOFT
+            style::INK_SOFT,
+            fit_attrs(NO_ORBIT, f_axis)
         );
     }
     if show_legend && decorated {
@@ -512,15 +345,7 @@ pub fn render_time_series_svg(series: &TimeSeries, opts: &TimeSeriesOptions) -> 
         let mut y = top + 2.0 * s;
         let row = 19.0 * s;
         out.push_str("<g class=\"legend\">");
-        let _ = write!(
-            out,
-            "<text x=\"{}\" y=\"{}\" font-size=\"{}\" letter-spacing=\"{}\" fill=\"{}\">ORBITS</text>",
-            num(x),
-            num(y + 0.72 * row),
-            num(10.5 * s),
-            num(0.84 * s),
-            style::INK_SOFT
-        );
+        legend::heading_text(&mut out, x, y + 0.72 * row, LEGEND_HEADING * s, "ORBITS");
         y += row;
         for (label, colour) in &entries {
             let mid = y + 0.5 * row;
@@ -534,46 +359,14 @@ pub fn render_time_series_svg(series: &TimeSeries, opts: &TimeSeriesOptions) -> 
                     num(2.2 * s)
                 );
             }
-            let _ = write!(
-                out,
-                "<text class=\"legend-entry\" x=\"{}\" y=\"{}\" font-size=\"{}\" fill=\"{}\">{}</text>",
-                num(x + swatch + 8.0 * s),
-                num(mid + 0.36 * f_legend),
-                num(f_legend),
-                style::INK,
-                escape(label)
-            );
+            legend::entry_text(&mut out, x + swatch + 8.0 * s, mid, f_legend, label);
             y += row;
         }
         out.push_str("</g>");
     }
-    if let Some(t) = &title
-        && decorated
-    {
-        let _ = write!(
-            out,
-            "<text class=\"title\" x=\"{}\" y=\"{}\" font-size=\"{}\" fill=\"{}\">{}</text>",
-            num(left),
-            num(14.0 * s + f_title * 0.8),
-            num(f_title),
-            style::INK,
-            escape(t)
-        );
-    }
-    if decorated && !caption.is_empty() {
-        let lh = f_caption * 1.35;
-        let y0 = h - 14.0 * s - (caption.len() as f64 - 1.0) * lh - 0.25 * f_caption;
-        for (i, line) in caption.iter().enumerate() {
-            let _ = write!(
-                out,
-                "<text class=\"caption\" x=\"{}\" y=\"{}\" font-size=\"{}\" fill=\"{}\">{}</text>",
-                num(pad),
-                num(y0 + i as f64 * lh),
-                num(f_caption),
-                style::INK_SOFT,
-                escape(line)
-            );
-        }
+    if decorated {
+        page.draw_title(&mut out, left);
+        page.draw_caption(&mut out);
     }
     out.push_str("</svg>");
     out
@@ -584,12 +377,9 @@ pub fn render_time_series_png(
     series: &TimeSeries,
     opts: &TimeSeriesOptions,
 ) -> Result<Vec<u8>, FigureError> {
-    crate::raster::check_size(opts.width, opts.height)?;
-    crate::svg_to_png(
-        &render_time_series_svg(series, opts),
-        opts.width,
-        opts.height,
-    )
+    crate::raster::figure_png(opts.width, opts.height, || {
+        render_time_series_svg(series, opts)
+    })
 }
 
 fn palette(k: usize) -> &'static str {
@@ -603,6 +393,8 @@ mod tests {
     use quarry_core::model::Model;
     use quarry_core::orbit::{OrbitOptions, run_orbit};
     use resvg::tiny_skia::Pixmap;
+
+    use crate::tests::doc_texts;
 
     fn lv_series(starts: &[[f64; 2]], t_end: f64) -> TimeSeries {
         let m = Model::new(&builtin("lotka-volterra").expect("builtin").spec()).expect("model");
@@ -635,18 +427,6 @@ mod tests {
         }
     }
 
-    fn texts(doc: &roxmltree::Document) -> Vec<String> {
-        doc.descendants()
-            .filter(|n| n.has_tag_name("text"))
-            .map(|n| {
-                n.descendants()
-                    .filter(|d| d.is_text())
-                    .filter_map(|d| d.text())
-                    .collect::<String>()
-            })
-            .collect()
-    }
-
     #[test]
     fn the_svg_parses_and_names_axes_units_orbits_and_caution() {
         let ts = lv_series(&[[10.0, 5.0], [30.0, 10.0]], 30.0);
@@ -658,7 +438,7 @@ mod tests {
             },
         );
         let doc = roxmltree::Document::parse(&svg).expect("well-formed SVG");
-        let t = texts(&doc);
+        let t = doc_texts(&doc);
         let [xn, yn] = [&ts.variables[0], &ts.variables[1]];
         assert!(t.contains(&format!("{xn} (thousand fish)")), "{t:?}");
         assert!(t.contains(&format!("{yn} (pairs)")));
@@ -673,6 +453,8 @@ mod tests {
             .collect::<Vec<_>>()
             .join(" ");
         assert_eq!(caption, quarry_core::harvest::CAUTION);
+        // Title, axis names, legend and caption keep their measured length in any font.
+        assert!(crate::tests::assert_text_is_fitted(&svg) >= 8);
         // Two orbits × two panels.
         let series = doc
             .descendants()
@@ -769,15 +551,7 @@ mod tests {
         let ts = lv_series(&starts, 5.0);
         let svg = render_time_series_svg(&ts, &TimeSeriesOptions::default());
         let doc = roxmltree::Document::parse(&svg).expect("svg");
-        let t = texts(&doc);
+        let t = doc_texts(&doc);
         assert!(t.contains(&"… and 3 more".to_owned()), "{t:?}");
-    }
-
-    #[test]
-    fn legend_numbers_are_short() {
-        assert_eq!(short(10.0), "10");
-        assert_eq!(short(0.123456), "0.1235");
-        assert_eq!(short(-2.5), "\u{2212}2.5");
-        assert_eq!(short(12345.678), "12346");
     }
 }

@@ -10,7 +10,7 @@ use quarry_core::sustained::{PointStatus, YieldCurve, YieldRule};
 use crate::chart::{
     Axis, COST, CURVE, Chart, ChartSpec, Marker, NO_STABLE_FILL, PROFIT, Swatch, padded,
 };
-use crate::sweep_figure::short;
+use crate::text::short_number;
 use crate::{FigureError, raster};
 
 /// How the yield figure is drawn.
@@ -245,7 +245,7 @@ pub fn render_yield_svg(curve: &YieldCurve, opts: &YieldFigure) -> String {
     }
     let mut overlay = String::new();
     if let Some(c) = curve.collapse {
-        let label = format!("collapse, {what} {}", short(c.value));
+        let label = format!("collapse, {what} {}", short_number(c.value));
         chart.marker(
             &mut overlay,
             Marker::Collapse,
@@ -255,7 +255,7 @@ pub fn render_yield_svg(curve: &YieldCurve, opts: &YieldFigure) -> String {
         );
     }
     if let Some(o) = curve.open_access {
-        let label = format!("open access, effort {}", short(o.value));
+        let label = format!("open access, effort {}", short_number(o.value));
         chart.marker(
             &mut overlay,
             Marker::OpenAccess,
@@ -265,11 +265,15 @@ pub fn render_yield_svg(curve: &YieldCurve, opts: &YieldFigure) -> String {
         );
     }
     if let Some(m) = curve.mey {
-        let label = format!("MEY, effort {}", short(m.value));
+        let label = format!("MEY, effort {}", short_number(m.value));
         chart.marker(&mut overlay, Marker::Mey, [m.value, m.catch], &label, true);
     }
     if let Some(m) = curve.msy {
-        let label = format!("MSY {} at {what} {}", short(m.catch), short(m.value));
+        let label = format!(
+            "MSY {} at {what} {}",
+            short_number(m.catch),
+            short_number(m.value)
+        );
         chart.marker(&mut overlay, Marker::Msy, [m.value, m.catch], &label, false);
     }
     chart.close(&mut out, &spec, &overlay);
@@ -278,18 +282,16 @@ pub fn render_yield_svg(curve: &YieldCurve, opts: &YieldFigure) -> String {
 
 /// The yield figure as a `width`×`height` PNG.
 pub fn render_yield_png(curve: &YieldCurve, opts: &YieldFigure) -> Result<Vec<u8>, FigureError> {
-    raster::check_size(opts.width, opts.height)?;
-    raster::svg_to_png(&render_yield_svg(curve, opts), opts.width, opts.height)
+    raster::figure_png(opts.width, opts.height, || render_yield_svg(curve, opts))
 }
 
 #[cfg(test)]
 mod tests {
+    use super::*;
+    use crate::tests::{assert_text_is_fitted, doc_texts, inked_in_middle};
     use quarry_core::harvest::{Economics, Harvest};
     use quarry_core::library;
     use quarry_core::sustained::{YieldOptions, sustained_yield};
-    use resvg::tiny_skia::Pixmap;
-
-    use super::*;
 
     fn schaefer_curve(economics: Option<Economics>) -> YieldCurve {
         let mut spec = library::builtin("schaefer").expect("built in").spec();
@@ -306,16 +308,7 @@ mod tests {
     }
 
     fn texts(svg: &str) -> Vec<String> {
-        let doc = roxmltree::Document::parse(svg).expect("well-formed SVG");
-        doc.descendants()
-            .filter(|n| n.has_tag_name("text"))
-            .map(|n| {
-                n.descendants()
-                    .filter(|t| t.is_text())
-                    .filter_map(|t| t.text())
-                    .collect()
-            })
-            .collect()
+        doc_texts(&roxmltree::Document::parse(svg).expect("well-formed SVG"))
     }
 
     #[test]
@@ -356,6 +349,8 @@ mod tests {
             },
         );
         assert!(!without.contains("class=\"profit\""));
+        // Three axis names, title, legend, marker labels and caution keep their length.
+        assert!(assert_text_is_fitted(&svg) >= 12);
     }
 
     #[test]
@@ -367,14 +362,8 @@ mod tests {
             ..YieldFigure::default()
         };
         let png = render_yield_png(&c, &fig).expect("png");
-        let pix = Pixmap::decode_png(&png).expect("decodes");
-        assert_eq!((pix.width(), pix.height()), (500, 360));
-        let (w, h) = (pix.width() as usize, pix.height() as usize);
-        let data = pix.data();
-        let inked = (h / 5..4 * h / 5)
-            .flat_map(|y| (w / 5..4 * w / 5).map(move |x| (y * w + x) * 4))
-            .filter(|&i| data[i] < 200 || data[i + 1] < 200 || data[i + 2] < 200)
-            .count();
+        let (size, inked) = inked_in_middle(&png, 5);
+        assert_eq!(size, (500, 360));
         assert!(inked > 200, "{inked} inked pixels");
     }
 }
