@@ -711,6 +711,9 @@ impl QuarryApp {
                 self.notice = None;
             }
             Err(e) => {
+                if !path.exists() {
+                    self.recent.remove(path);
+                }
                 let message = format!("{}: {e}", path.display());
                 match &mut self.file_window {
                     Some(w) => w.error = Some(message),
