@@ -1780,6 +1780,41 @@ mod tests {
     }
 
     #[test]
+    fn subcritical_hopf_cycles_are_found_round_the_stable_focus_and_repel() {
+        // Closed form (common practice): the subcritical normal form r' = μr + r³, θ' = 1 has
+        // the repelling cycle r = √(−μ) with period 2π for μ < 0, around the stable focus,
+        // and none for μ > 0; its multiplier is exp(2π · d(μr + r³)/dr) = exp(−4πμ) > 1.
+        let m = model(
+            ["mu*x - y + x*(x^2 + y^2)", "x + mu*y + y*(x^2 + y^2)"],
+            &[("mu", -0.1)],
+            None,
+            [-1.5, 1.5, -1.5, 1.5],
+        );
+        let opts = SweepOptions {
+            cycle_samples: 5,
+            ..SweepOptions::new("mu", -1.0, 0.5, 31)
+        };
+        let s = run(&m, &opts);
+        let hopf = of_kind(&s, BifurcationKind::Hopf);
+        assert_eq!(hopf.len(), 1, "{:?}", s.bifurcations);
+        assert!(hopf[0].value.abs() < 1e-10, "{}", hopf[0].value);
+        // Five samples spaced by the square of their index: r = 0.2, 0.4, …, 1.0.
+        assert_eq!(s.cycles.len(), 5, "{:?}", s.cycles);
+        for c in &s.cycles {
+            assert!(c.value < 0.0, "{c:?}");
+            let r = (-c.value).sqrt();
+            for k in 0..2 {
+                assert!((c.max[k] - r).abs() < 1e-7, "{c:?}");
+                assert!((c.min[k] + r).abs() < 1e-7, "{c:?}");
+            }
+            assert!(rel(c.period, std::f64::consts::TAU) < 1e-8, "{c:?}");
+            assert!(!c.stable, "{c:?}");
+            let expected = (-4.0 * std::f64::consts::PI * c.value).exp();
+            assert!(rel(c.multiplier, expected) < 1e-5, "{c:?} vs {expected}");
+        }
+    }
+
+    #[test]
     fn rosenzweig_macarthur_cycle_is_born_at_k_h_with_zero_amplitude() {
         // Rosenzweig 1971: past the hump, K > K_H = 3 with the built-in defaults, the
         // coexistence equilibrium is an unstable focus surrounded by an attracting cycle that
