@@ -436,7 +436,7 @@ impl QuarryApp {
                 Panel::bottom("time-series")
                     .resizable(true)
                     .default_size(220.0)
-                    .min_size(120.0)
+                    .min_size(150.0)
                     .show(ui, |ui| {
                         ui.add_space(4.0);
                         self.timeseries.ui(

@@ -6,7 +6,7 @@
 use std::time::Instant;
 
 use egui::{Button, DragValue, Ui};
-use egui_plot::{Corner, Legend, Line, LineStyle, Plot, Points, VLine};
+use egui_plot::{Line, LineStyle, Plot, Points, VLine};
 use quarry_core::scene::{Scene, SceneOrbit};
 
 use crate::command::Command;
@@ -190,6 +190,15 @@ impl TimeSeriesPanel {
             if ui.checkbox(&mut looped, "Loop").changed() {
                 out.push(Command::SetPlaybackLoop(looped));
             }
+            if span.is_some() {
+                // The key: line style tells the variable, colour the orbit (as in the plane).
+                ui.separator();
+                line_key(ui, false);
+                ui.label(xn.as_str());
+                line_key(ui, true);
+                ui.label(yn.as_str());
+                ui.weak("· colour: orbit");
+            }
         });
         if orbits.is_empty() {
             ui.weak(
@@ -205,7 +214,7 @@ impl TimeSeriesPanel {
             .map(|v| v.unit.as_str())
             .collect();
         let y_label = if !units[0].is_empty() && units[0] == units[1] {
-            format!("{xn}, {yn} ({})", units[0])
+            units[0].to_owned()
         } else {
             format!("{xn}, {yn}")
         };
@@ -214,22 +223,13 @@ impl TimeSeriesPanel {
             .y_axis_label(y_label)
             .allow_double_click_reset(true)
             .show_crosshair(false)
-            .label_formatter(|_| None)
-            .legend(
-                Legend::default()
-                    .position(Corner::RightTop)
-                    .background_alpha(0.85),
-            );
+            .label_formatter(|_| None);
         let response = plot.show(ui, |pui| {
             for (seed, orbit) in &orbits {
                 let colour = style::orbit_colour(seed.id);
                 for (k, name, line_style) in [
                     (0, xn.clone(), LineStyle::Solid),
-                    (
-                        1,
-                        format!("{yn} (dashed)"),
-                        LineStyle::Dashed { length: 8.0 },
-                    ),
+                    (1, yn.clone(), LineStyle::Dashed { length: 8.0 }),
                 ] {
                     let pts: Vec<[f64; 2]> = orbit
                         .times
@@ -272,6 +272,19 @@ impl TimeSeriesPanel {
             }
         });
         self.hover_time = response.inner.filter(|t| t.is_finite());
+    }
+}
+
+/// A short sample of a time-series line, solid or dashed, for the key.
+fn line_key(ui: &mut Ui, dashed: bool) {
+    let (rect, _) = ui.allocate_exact_size(egui::vec2(26.0, 12.0), egui::Sense::hover());
+    let stroke = egui::Stroke::new(1.8, ui.visuals().strong_text_color());
+    let (a, b) = (rect.left_center(), rect.right_center());
+    if dashed {
+        ui.painter()
+            .extend(egui::Shape::dashed_line(&[a, b], stroke, 8.0, 4.0));
+    } else {
+        ui.painter().line_segment([a, b], stroke);
     }
 }
 

@@ -267,7 +267,7 @@ fn the_time_series_and_the_plane_mark_the_same_moment() {
     h.run();
     let id = h.state().scenario().seeds[0].id;
     assert_eq!(h.state().selection(), &[id], "a new orbit is selected");
-    h.get_by_label_contains("x · #");
+    h.get_by_label_contains("colour: orbit"); // the time series is drawn, with its key
     // Hover the orbit in the plane at a stored point: the time series gets its time.
     let orbit = h.state().scene().expect("scene").orbits[0].clone();
     let k = orbit.points.len() / 3;
