@@ -150,7 +150,7 @@ fn table(model: &Model, analysis: &Analysis) -> String {
         "#", x, y, "class", "trace", "det"
     ));
     for (i, e) in analysis.equilibria.iter().enumerate() {
-        let l = &e.linear;
+        let l = &e.linear.for_display();
         let eig: Vec<String> = l
             .eigenvalues
             .iter()

@@ -112,7 +112,7 @@ impl EquilibriaPanel {
 }
 
 fn row_ui(ui: &mut Ui, e: &Equilibrium) {
-    let lin = &e.linear;
+    let lin = &e.linear.for_display();
     let [[a, b], [c, d]] = lin.jacobian;
     style::marker_swatch(ui, &style::marker(e));
     ui.label(RichText::new(format!("({}, {})", num(e.x), num(e.y))).monospace());

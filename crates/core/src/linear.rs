@@ -109,6 +109,35 @@ pub struct Linearisation {
     pub class: Class,
 }
 
+impl Linearisation {
+    /// The same numbers for a table people read: entries, trace, eigenvalue parts and the
+    /// determinant that the classification treats as zero (below [`CLASS_EPS`] relative to
+    /// the Jacobian's largest entry, or its square for the determinant) are shown as zero, so
+    /// a linear centre reads `0 ± ωi` rather than `−1.1×10⁻¹⁶ ± ωi`. Data exports keep the
+    /// computed values.
+    pub fn for_display(&self) -> Linearisation {
+        let s = self
+            .jacobian
+            .iter()
+            .flatten()
+            .fold(0.0_f64, |m, v| m.max(v.abs()));
+        if !(s.is_finite() && s > 0.0) {
+            return *self;
+        }
+        let snap = |v: f64, scale: f64| if v.abs() <= CLASS_EPS * scale { 0.0 } else { v };
+        let z = |c: Complex| Complex::new(snap(c.re, s), snap(c.im, s));
+        Linearisation {
+            jacobian: self.jacobian.map(|row| row.map(|v| snap(v, s))),
+            trace: snap(self.trace, s),
+            det: snap(self.det, s * s),
+            discriminant: snap(self.discriminant, s * s),
+            eigenvalues: self.eigenvalues.map(z),
+            eigenvectors: self.eigenvectors,
+            class: self.class,
+        }
+    }
+}
+
 /// Linearises with a given Jacobian.
 pub fn linearise(jacobian: [[f64; 2]; 2]) -> Linearisation {
     let [[a, b], [c, d]] = jacobian;
@@ -255,6 +284,25 @@ fn real_eigenvector(a: f64, b: f64, c: f64, d: f64, l: f64, fallback: [f64; 2]) 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn rounding_noise_is_shown_as_zero_and_real_numbers_are_kept() {
+        // The Lotka–Volterra centre's Jacobian at a Newton-solved point, with the diagonal
+        // off zero by rounding (as a harvested model's equilibrium gives).
+        let l = linearise([[1.1e-16, -2.4], [0.525, -2.2e-16]]);
+        assert_eq!(l.class, Class::Center);
+        assert!(l.trace != 0.0 && l.eigenvalues[0].re != 0.0);
+        let d = l.for_display();
+        assert_eq!(d.trace, 0.0);
+        assert_eq!(d.jacobian[0][0], 0.0);
+        assert_eq!(d.eigenvalues[0].re, 0.0);
+        assert_eq!(d.eigenvalues[0].im, l.eigenvalues[0].im);
+        assert_eq!(d.det, l.det);
+        // A small but real trace (a weak focus, 1e-6 of the scale) is kept.
+        let w = linearise([[1e-6, -1.0], [1.0, 0.0]]);
+        assert_eq!(w.for_display().trace, w.trace);
+        assert_eq!(w.for_display().eigenvalues, w.eigenvalues);
+    }
 
     fn class_of(j: [[f64; 2]; 2]) -> Class {
         linearise(j).class

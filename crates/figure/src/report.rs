@@ -739,7 +739,7 @@ pub fn report_html(input: &ReportInput) -> String {
             with_unit(&v1.name, &v1.unit)
         );
         for (i, q) in input.equilibria.iter().enumerate() {
-            let l = &q.linear;
+            let l = &q.linear.for_display();
             let verdict = q
                 .nonlinear
                 .as_ref()
