@@ -183,6 +183,8 @@ pub struct Chart {
     y_ticks: Vec<Tick>,
     right_ticks: Vec<(f64, Tick)>,
     legend_at: Option<(Px, bool)>,
+    /// Boxes of the marker labels placed so far, so later ones move clear of them.
+    labels: std::cell::RefCell<Vec<Rect>>,
 }
 
 /// Legend metrics at scale `s`: row pitch, sample width, gap, font.
@@ -322,6 +324,7 @@ impl Chart {
             x_ticks,
             right_ticks: if decorated { right_ticks } else { Vec::new() },
             legend_at,
+            labels: std::cell::RefCell::new(Vec::new()),
         }
     }
 
@@ -371,15 +374,16 @@ impl Chart {
         } else {
             (c[0] + 1.6 * r, "start")
         };
-        let mut y = if below {
+        let y = if below {
             c[1] + 1.4 * r + 0.8 * fs
         } else {
             c[1] - 1.4 * r
         };
-        y = y.clamp(
+        let (lo, hi) = (
             self.frame.plot.top + fs,
             self.frame.plot.bottom() - 3.0 * self.s,
         );
+        let y = self.place_label(x, y.clamp(lo, hi), tw, anchor == "end", fs, below, (lo, hi));
         let _ = write!(
             out,
             "<text class=\"marker-label\" x=\"{}\" y=\"{}\" font-size=\"{}\" text-anchor=\"{anchor}\" fill=\"{}\" stroke=\"#ffffff\" stroke-width=\"{}\" paint-order=\"stroke\"{}>{}</text>",
@@ -391,6 +395,46 @@ impl Chart {
             fit_length(tw),
             escape(label)
         );
+    }
+
+    /// The baseline for a marker label near `y` whose box misses the labels placed before:
+    /// stepped a line at a time away from the marker (down when `below`), then the other
+    /// way, within `range`; the first try when nothing is free. Records the box.
+    #[allow(clippy::too_many_arguments)]
+    fn place_label(
+        &self,
+        x: f64,
+        y: f64,
+        width: f64,
+        from_right: bool,
+        fs: f64,
+        below: bool,
+        range: (f64, f64),
+    ) -> f64 {
+        let left = if from_right { x - width } else { x };
+        let boxed = |y: f64| Rect {
+            left,
+            top: y - 0.85 * fs,
+            width,
+            height: 1.1 * fs,
+        };
+        let overlaps = |a: &Rect, b: &Rect| {
+            a.left < b.right() && b.left < a.right() && a.top < b.bottom() && b.top < a.bottom()
+        };
+        let mut placed = self.labels.borrow_mut();
+        let free = |y: f64| {
+            let b = boxed(y);
+            !placed.iter().any(|p| overlaps(p, &b))
+        };
+        let step = 1.15 * fs * if below { 1.0 } else { -1.0 };
+        let chosen = (0..8)
+            .map(|k| y + k as f64 * step)
+            .chain((1..8).map(|k| y - k as f64 * step))
+            .filter(|t| (range.0..=range.1).contains(t))
+            .find(|t| free(*t))
+            .unwrap_or(y);
+        placed.push(boxed(chosen));
+        chosen
     }
 
     /// A light band over the values `lo..hi` (model units), full height.

@@ -354,6 +354,47 @@ mod tests {
     }
 
     #[test]
+    fn marker_labels_next_to_each_other_do_not_overlap() {
+        // A cost far below p·q·K puts open access (E = 49.8) beside collapse (E = 50), and
+        // MEY (E = 24.9) beside MSY (E = 25) (Gordon 1954, Schaefer 1954).
+        let c = schaefer_curve(Some(Economics {
+            price: 2.0,
+            cost_per_effort: 0.008,
+        }));
+        let svg = render_yield_svg(&c, &YieldFigure::default());
+        let doc = roxmltree::Document::parse(&svg).expect("well-formed SVG");
+        let attr = |n: &roxmltree::Node, a: &str| -> f64 {
+            n.attribute(a).and_then(|v| v.parse().ok()).expect(a)
+        };
+        let boxes: Vec<(String, [f64; 4])> = doc
+            .descendants()
+            .filter(|n| n.attribute("class") == Some("marker-label"))
+            .map(|n| {
+                let (x, y, w, fs) = (
+                    attr(&n, "x"),
+                    attr(&n, "y"),
+                    attr(&n, "textLength"),
+                    attr(&n, "font-size"),
+                );
+                let left = if n.attribute("text-anchor") == Some("end") {
+                    x - w
+                } else {
+                    x
+                };
+                let text = n.text().unwrap_or_default().to_owned();
+                (text, [left, y - 0.8 * fs, left + w, y + 0.2 * fs])
+            })
+            .collect();
+        assert_eq!(boxes.len(), 4, "{boxes:?}");
+        for (i, (ta, a)) in boxes.iter().enumerate() {
+            for (tb, b) in &boxes[i + 1..] {
+                let apart = a[2] <= b[0] || b[2] <= a[0] || a[3] <= b[1] || b[3] <= a[1];
+                assert!(apart, "'{ta}' {a:?} overlaps '{tb}' {b:?}");
+            }
+        }
+    }
+
+    #[test]
     fn the_yield_png_has_the_asked_size_and_ink_in_the_plot() {
         let c = schaefer_curve(None);
         let fig = YieldFigure {
