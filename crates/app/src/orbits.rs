@@ -22,9 +22,19 @@ pub fn direction_text(d: TimeDirection) -> &'static str {
     }
 }
 
-/// One line of measurements for an orbit.
-pub fn summary_text(vars: &[String; 2], orbit: &SceneOrbit) -> String {
+/// One line of measurements for an orbit. `extent` is the window's size along each axis: a
+/// minimum that dips below zero by less than 1e-7 of it is the integrator's rounding next to
+/// an invariant axis (a stock that reaches zero stays there) and reads as 0.
+pub fn summary_text(vars: &[String; 2], orbit: &SceneOrbit, extent: [f64; 2]) -> String {
     let s = &orbit.summary;
+    let low = |k: usize| {
+        let v = s.min[k];
+        if v < 0.0 && -v <= 1e-7 * extent[k] {
+            0.0
+        } else {
+            v
+        }
+    };
     let [x, y] = vars;
     if s.closed
         && let Some(period) = s.period
@@ -43,9 +53,9 @@ pub fn summary_text(vars: &[String; 2], orbit: &SceneOrbit) -> String {
     } else {
         format!(
             "not closed · {x} {}…{}, {y} {}…{}",
-            num(s.min[0]),
+            num(low(0)),
             num(s.max[0]),
-            num(s.min[1]),
+            num(low(1)),
             num(s.max[1])
         )
     }
@@ -216,7 +226,10 @@ impl OrbitsPanel {
             });
         });
         let detail = match orbit {
-            Some(o) => summary_text(&scenario.spec.variables, o),
+            Some(o) => {
+                let w = &scenario.spec.window;
+                summary_text(&scenario.spec.variables, o, [w.width(), w.height()])
+            }
             None if busy => "computing…".to_owned(),
             None => "no orbit from here: the rates are undefined at this start".to_owned(),
         };
@@ -239,5 +252,34 @@ impl OrbitsPanel {
             });
         }
         ui.add_space(2.0);
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use quarry_core::scene::OrbitSummary;
+
+    #[test]
+    fn rounding_below_an_invariant_axis_reads_as_zero_and_real_values_stay() {
+        let vars = ["cod".to_owned(), "catch".to_owned()];
+        let orbit = |min: [f64; 2]| SceneOrbit {
+            seed: [20.0, 0.0],
+            times: vec![0.0],
+            points: vec![[20.0, 0.0]],
+            summary: OrbitSummary {
+                min,
+                max: [20.0, 13.82],
+                ..OrbitSummary::default()
+            },
+        };
+        let t = summary_text(&vars, &orbit([-2.5e-8, -2.559e-10]), [220.0, 40.0]);
+        assert_eq!(t, "not closed · cod 0…20, catch 0…13.82");
+        // A true dip below zero, or a small positive minimum, is shown as it is.
+        let t = summary_text(&vars, &orbit([-0.5, 1e-9]), [220.0, 40.0]);
+        assert!(
+            t.contains("cod −0.5…20") && t.contains("catch 1.000e−9…"),
+            "{t}"
+        );
     }
 }
