@@ -1060,8 +1060,17 @@ impl QuarryApp {
             }
             Command::ShowFileWindow(action) => self.open_file_window(action),
             Command::ShowExport(kind) => {
-                let dir = self.document.path.as_deref().and_then(Path::parent);
-                self.export_window = Some(ExportWindow::new(kind, dir));
+                // Beside the scenario file, else in the working folder, shown in full so the
+                // user sees where the file goes.
+                let dir = self
+                    .document
+                    .path
+                    .as_deref()
+                    .and_then(Path::parent)
+                    .filter(|d| !d.as_os_str().is_empty())
+                    .map(|d| std::path::absolute(d).unwrap_or_else(|_| d.to_path_buf()))
+                    .or_else(|| std::env::current_dir().ok());
+                self.export_window = Some(ExportWindow::new(kind, dir.as_deref()));
             }
             Command::Export(request) => match self.export(&request) {
                 Ok(()) => {

@@ -98,7 +98,9 @@ impl HarvestPanel {
                 ui.add_space(12.0);
                 match h.rules[i] {
                     HarvestRule::None => {
-                        ui.weak("not harvested");
+                        ui.weak("no harvest rule").on_hover_text(
+                            "Catch terms written into the model's own rates still apply",
+                        );
                     }
                     HarvestRule::Proportional {
                         effort,
