@@ -7,7 +7,7 @@ use egui::{Button, DragValue, RichText, Ui};
 use egui_plot::{Corner, Legend, Line, LineStyle, MarkerShape, Plot, Points, VLine};
 use quarry_core::linear::Class;
 use quarry_core::model::Model;
-use quarry_core::sweep::{BifurcationKind, Sweep, SweepError, SweepOptions, sweep};
+use quarry_core::sweep::{BifurcationKind, BranchEnd, Sweep, SweepError, SweepOptions, sweep};
 
 use crate::command::Command;
 use crate::job::Job;
@@ -40,6 +40,26 @@ pub fn stability(class: Class) -> Stability {
         Class::Center | Class::ZeroEigenvalue => Stability::Neutral,
         _ => Stability::Unstable,
     }
+}
+
+/// The parameter values of the last points inside the window of branches that leave it,
+/// sorted.
+pub fn window_exits(sweep: &Sweep) -> Vec<f64> {
+    let mut out: Vec<f64> = sweep
+        .branches
+        .iter()
+        .flat_map(|b| {
+            let first = (b.start == BranchEnd::LeftWindow)
+                .then(|| b.points.first().map(|p| p.value))
+                .flatten();
+            let last = (b.end == BranchEnd::LeftWindow)
+                .then(|| b.points.last().map(|p| p.value))
+                .flatten();
+            first.into_iter().chain(last)
+        })
+        .collect();
+    out.sort_by(f64::total_cmp);
+    out
 }
 
 /// One run of a branch with the same stability: parameter value and the chosen variable.
@@ -318,6 +338,15 @@ impl SweepView {
                 ""
             }
         ));
+        let exits = window_exits(sweep);
+        if !exits.is_empty() {
+            let at: Vec<String> = exits.iter().map(|v| num(*v)).collect();
+            ui.weak(format!(
+                "A branch leaves the window after {} = {} (widen the window to follow it).",
+                sweep.param,
+                at.join(", ")
+            ));
+        }
         let current = model.param(&sweep.param);
         let var_name = done.variables[self.variable].clone();
         let response = Plot::new("sweep-diagram")
@@ -514,5 +543,41 @@ mod tests {
             }
         }
         panic!("no two runs share a point");
+    }
+
+    #[test]
+    fn a_branch_that_leaves_the_window_is_reported_where_it_leaves() {
+        // Closed form (Rosenzweig–MacArthur): x* = m/(a(b − mh)) = 0.5 and
+        // y* = r(1 − x*/K)(1 + ahx*)/a = 1.171875·r with the built-in numbers, so the
+        // coexistence branch crosses the window's top y = 5 at r = 4.2667 and leaves there.
+        let spec = quarry_core::library::builtin("holling-ii")
+            .expect("built in")
+            .spec();
+        let model = Model::new(&spec).expect("compiles");
+        let s = sweep(
+            &model,
+            &SweepOptions::new("r", 0.1, 8.0, 80),
+            &|| false,
+            &|_| {},
+        )
+        .expect("sweep");
+        let exits = window_exits(&s);
+        assert_eq!(exits.len(), 1, "{exits:?}");
+        let y_top = spec.window.y_max;
+        let r_top = y_top / 1.171875;
+        // The last point inside, at most one grid step (0.1) before the crossing.
+        assert!(
+            exits[0] <= r_top && exits[0] > r_top - 0.1 - 1e-9,
+            "{exits:?} vs {r_top}"
+        );
+        // The branches that run from one end of the range to the other do not count.
+        let inside = sweep(
+            &model,
+            &SweepOptions::new("r", 0.1, 4.0, 40),
+            &|| false,
+            &|_| {},
+        )
+        .expect("sweep");
+        assert!(window_exits(&inside).is_empty());
     }
 }
