@@ -35,6 +35,8 @@ pub struct YieldView {
     pub steps: usize,
     /// Catchability for the effort rule.
     pub catchability: f64,
+    /// Widen the range until the stock's collapse is in it.
+    pub extend: bool,
     job: Option<Job<Result<YieldCurve, YieldError>>>,
     done: Option<Done>,
     error: Option<String>,
@@ -49,11 +51,53 @@ impl Default for YieldView {
             to: 1.0,
             steps: 200,
             catchability: 1.0,
+            extend: true,
             job: None,
             done: None,
             error: None,
         }
     }
+}
+
+/// How many times [`extended_curve`] may widen the range fourfold.
+const MAX_WIDENINGS: usize = 7;
+
+/// The curve over `opts`' range, widened fourfold at a time (at most [`MAX_WIDENINGS`] times)
+/// while the stock does not collapse within it; once it does after widening, computed again
+/// over `from..1.5 × collapse` so the curve fills the plot at full resolution.
+fn extended_curve(
+    spec: &quarry_core::model::ModelSpec,
+    harvest: &quarry_core::harvest::Harvest,
+    mut opts: YieldOptions,
+    cancelled: &dyn Fn() -> bool,
+    progress: &dyn Fn(f32),
+) -> Result<YieldCurve, YieldError> {
+    let passes = (MAX_WIDENINGS + 2) as f32;
+    let mut pass = 0.0_f32;
+    let run = |opts: &YieldOptions, pass: f32| {
+        sustained_yield(spec, harvest, opts, cancelled, &|f| {
+            progress(((pass + f) / passes).min(1.0));
+        })
+    };
+    let mut curve = run(&opts, pass)?;
+    let mut widened = false;
+    while curve.collapse.is_none() && (pass as usize) < MAX_WIDENINGS {
+        let width = opts.to - opts.from;
+        opts.to = opts.from + 4.0 * width;
+        pass += 1.0;
+        widened = true;
+        curve = run(&opts, pass)?;
+    }
+    let collapse_at = curve.collapse.as_ref().map(|c| c.value);
+    if widened && let Some(at) = collapse_at {
+        let to = opts.from + 1.5 * (at - opts.from);
+        if to > opts.from && to != opts.to {
+            opts.to = to;
+            curve = run(&opts, pass + 1.0)?;
+        }
+    }
+    progress(1.0);
+    Ok(curve)
 }
 
 impl YieldView {
@@ -91,9 +135,14 @@ impl YieldView {
         }
         let spec = scenario.spec.clone();
         let harvest = scenario.harvest;
+        let extend = self.extend;
         self.error = None;
         self.job = Some(Job::start(ctx, move |cancelled, progress| {
-            sustained_yield(&spec, &harvest, &opts, cancelled, progress)
+            if extend {
+                extended_curve(&spec, &harvest, opts, cancelled, progress)
+            } else {
+                sustained_yield(&spec, &harvest, &opts, cancelled, progress)
+            }
         }));
     }
 
@@ -103,7 +152,13 @@ impl YieldView {
         let Some(result) = job.take() else { return };
         self.job = None;
         match result {
-            Ok(curve) => self.done = Some(Done { curve, millis }),
+            Ok(curve) => {
+                // The range the curve was computed over, when it was widened.
+                if let Some(last) = curve.points.last() {
+                    self.to = last.value;
+                }
+                self.done = Some(Done { curve, millis });
+            }
             Err(YieldError::Sweep(quarry_core::sweep::SweepError::Cancelled)) => {
                 self.error = Some("Cancelled.".into());
             }
@@ -167,6 +222,11 @@ impl YieldView {
                     .labelled_by(l.id);
                 style::accessible_name(ui, &r, "yield catchability");
             }
+            ui.checkbox(&mut self.extend, "widen to collapse")
+                .on_hover_text(
+                    "When the stock does not collapse within the range, widen it (up to \
+                     4⁷ times) until it does, then frame the curve to 1.5 × the collapse point",
+                );
             let running = self.job.as_ref().is_some_and(Job::is_running);
             let valid = self.from.is_finite() && self.to.is_finite() && self.to > self.from;
             if ui

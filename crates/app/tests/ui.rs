@@ -481,6 +481,38 @@ fn the_yield_view_reads_msy_and_collapse_off_the_schaefer_curve() {
 }
 
 #[test]
+fn the_yield_view_widens_a_short_range_until_the_stock_collapses() {
+    let spec = quarry_core::library::builtin("schaefer")
+        .expect("built-in")
+        .spec();
+    let mut h = harness(QuarryApp::new_synchronous(spec));
+    h.get_by_label("E value").set_value_accesskit(0.0);
+    h.run();
+    h.get_by_label("Yield").click();
+    h.run();
+    {
+        let view = h.state_mut().yield_view();
+        view.over_effort = true;
+        view.catchability = 0.01;
+        assert!(view.extend, "widening is on by default");
+        assert_eq!((view.from, view.to), (0.0, 1.0), "the opening range");
+    }
+    h.get_by_label("Compute curve").click();
+    h.run();
+    h.run();
+    let view = h.state_mut().yield_view();
+    let curve = view.result().expect("a curve").clone();
+    // Schaefer (1954): collapse at E = r/q = 50. The range 0..1 is widened fourfold to 0..64,
+    // which holds it, then framed to 1.5 × 50 = 75.
+    let collapse = curve.collapse.expect("a collapse");
+    assert!((collapse.value - 50.0).abs() < 1e-7, "{collapse:?}");
+    assert_eq!(view.to, 75.0);
+    assert_eq!(curve.points.last().map(|p| p.value), Some(75.0));
+    let msy = curve.msy.expect("an MSY");
+    assert!((msy.catch - 12.5).abs() < 1e-8, "{msy:?}");
+}
+
+#[test]
 fn the_two_parameter_map_colours_the_cells_by_what_the_equilibria_do() {
     let spec = quarry_core::library::builtin("holling-ii")
         .expect("built-in")
