@@ -422,17 +422,23 @@ fn a_sweep_finds_the_hopf_point_and_set_puts_it_in_the_plane() {
     assert_eq!(k.value, hopf.value);
 }
 
-#[test]
-fn the_yield_view_reads_msy_and_collapse_off_the_schaefer_curve() {
+/// The built-in Schaefer model with the yield view open. The model fishes with its own E;
+/// that is set to zero so the view does the fishing.
+fn schaefer_in_the_yield_view() -> Harness<'static, QuarryApp> {
     let spec = quarry_core::library::builtin("schaefer")
         .expect("built-in")
         .spec();
     let mut h = harness(QuarryApp::new_synchronous(spec));
-    // The built-in model fishes with its own E; take that away and fish through the view.
     h.get_by_label("E value").set_value_accesskit(0.0);
     h.run();
     h.get_by_label("Yield").click();
     h.run();
+    h
+}
+
+#[test]
+fn the_yield_view_reads_msy_and_collapse_off_the_schaefer_curve() {
+    let mut h = schaefer_in_the_yield_view();
     {
         let view = h.state_mut().yield_view();
         view.species = 0;
@@ -482,14 +488,7 @@ fn the_yield_view_reads_msy_and_collapse_off_the_schaefer_curve() {
 
 #[test]
 fn the_yield_view_widens_a_short_range_until_the_stock_collapses() {
-    let spec = quarry_core::library::builtin("schaefer")
-        .expect("built-in")
-        .spec();
-    let mut h = harness(QuarryApp::new_synchronous(spec));
-    h.get_by_label("E value").set_value_accesskit(0.0);
-    h.run();
-    h.get_by_label("Yield").click();
-    h.run();
+    let mut h = schaefer_in_the_yield_view();
     {
         let view = h.state_mut().yield_view();
         view.over_effort = true;
