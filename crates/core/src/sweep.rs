@@ -895,7 +895,13 @@ impl Tracer<'_> {
             };
             out.push((c, kind));
         }
-        if a.det > 0.0 && b.det > 0.0 && crosses(a.trace, b.trace) {
+        // NOTE: along a family of linear centres (Lotka–Volterra under any effort) the trace
+        // stays within rounding of zero and flips sign by noise alone; that is no Hopf point,
+        // so one end at least must have a trace the classification does not call zero.
+        let noise =
+            |p: &Pt| CLASS_EPS * p.jac.iter().flatten().fold(0.0_f64, |m, v| m.max(v.abs()));
+        let real_trace = a.trace.abs() > noise(a) || b.trace.abs() > noise(b);
+        if a.det > 0.0 && b.det > 0.0 && real_trace && crosses(a.trace, b.trace) {
             let c = self.locate(*a, *b, Test::Trace);
             let s = c
                 .jac
@@ -1777,6 +1783,39 @@ mod tests {
         let last = s.cycles.last().expect("a sample");
         assert_eq!(last.value, 1.0);
         assert!(rel(s.cycles[0].value, 1.0 / 36.0) < 1e-12);
+    }
+
+    #[test]
+    fn a_family_of_centres_has_no_hopf_point() {
+        // Volterra's principle (common practice): Lotka–Volterra with equal effort E on both
+        // species keeps a linear centre at ((c+E)/γ, (a−E)/α) for every E < a, with trace 0
+        // exactly; rounding must not be read as Hopf points.
+        let m = model(
+            ["a*x - alpha*x*y - E*x", "-c*y + gamma*x*y - E*y"],
+            &[
+                ("a", 1.0),
+                ("alpha", 0.1),
+                ("c", 1.5),
+                ("gamma", 0.075),
+                ("E", 0.3),
+            ],
+            None,
+            [0.0, 60.0, 0.0, 40.0],
+        );
+        let s = run(&m, &SweepOptions::new("E", 0.0, 0.9, 50));
+        assert!(s.bifurcations.is_empty(), "{:?}", s.bifurcations);
+        let centres: Vec<&BranchPoint> = s
+            .branches
+            .iter()
+            .flat_map(|b| &b.points)
+            .filter(|p| p.x > 1.0)
+            .collect();
+        assert!(!centres.is_empty());
+        for p in centres {
+            assert_eq!(p.linear.class, Class::Center, "{p:?}");
+            assert!(rel(p.x, (1.5 + p.value) / 0.075) < 1e-9, "{p:?}");
+            assert!(rel(p.y, (1.0 - p.value) / 0.1) < 1e-9, "{p:?}");
+        }
     }
 
     #[test]
