@@ -95,6 +95,9 @@ pub fn tick_target(len_px: f64, spacing_px: f64) -> usize {
     ((len_px / spacing_px).round() as usize).clamp(2, 10)
 }
 
+/// Line pitch of a two-line title, in title font sizes.
+const TITLE_LEADING: f64 = 1.2;
+
 /// The page: size, scale, text sizes, title and caption, and the band left for the plot.
 pub struct Page {
     /// Width (px).
@@ -109,6 +112,8 @@ pub struct Page {
     pub pad: f64,
     /// The title, trimmed; `None` when there is none.
     pub title: Option<String>,
+    /// The title wrapped to the page's width, at most two lines.
+    pub title_lines: Vec<String>,
     /// The caption, wrapped to the page's width.
     pub caption: Vec<String>,
     /// Top of the plot (below the title).
@@ -139,11 +144,19 @@ impl Page {
         let caption = caption
             .map(|c| wrap(c, fonts.caption, (w - 2.0 * pad).max(1.0), 4))
             .unwrap_or_default();
+        // NOTE: the title starts at the plot's left edge, about 90 px (at scale 1) in from the
+        // page's; wrapping to that width keeps a long scenario title on the page.
+        let title_lines = title
+            .as_deref()
+            .map(|t| wrap(t, fonts.title, (w - pad - 90.0 * s).max(1.0), 2))
+            .unwrap_or_default();
         let top = pad
-            + if title.is_some() {
-                fonts.title + 14.0 * s
-            } else {
+            + if title_lines.is_empty() {
                 4.0 * s
+            } else {
+                fonts.title
+                    + 14.0 * s
+                    + (title_lines.len() - 1) as f64 * TITLE_LEADING * fonts.title
             };
         let caption_h = if caption.is_empty() {
             0.0
@@ -158,6 +171,7 @@ impl Page {
             fonts,
             pad,
             title,
+            title_lines,
             caption,
             top,
             bottom,
@@ -177,6 +191,7 @@ impl Page {
     /// Drops the title and caption (for a page too small to decorate).
     pub fn undecorated(&mut self) {
         self.title = None;
+        self.title_lines.clear();
         self.caption.clear();
     }
 
@@ -211,12 +226,13 @@ impl Page {
 
     /// The title, left-aligned at `x`, if there is one.
     pub fn draw_title(&self, out: &mut String, x: f64) {
-        if let Some(t) = &self.title {
+        for (i, t) in self.title_lines.iter().enumerate() {
+            let y = 14.0 * self.s + self.fonts.title * (0.8 + TITLE_LEADING * i as f64);
             let _ = write!(
                 out,
                 "<text class=\"title\" x=\"{}\" y=\"{}\" font-size=\"{}\" fill=\"{}\"{}>{}</text>",
                 num(x),
-                num(14.0 * self.s + self.fonts.title * 0.8),
+                num(y),
                 num(self.fonts.title),
                 style::INK,
                 fit_attrs(t, self.fonts.title),

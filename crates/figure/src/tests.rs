@@ -363,6 +363,65 @@ fn lotka_volterra_svg_has_title_axes_legend_and_one_path_per_orbit() {
 }
 
 #[test]
+fn a_long_title_wraps_onto_two_lines_inside_the_page() {
+    let mut scene = lv_scene();
+    let words = "Lake Varrow perch and pike under net fishing of both species at the \
+                 effort the board proposed for the northern basin in the coming season";
+    scene.title = words.into();
+    let opts = FigureOptions {
+        width: 600,
+        height: 450,
+        ..FigureOptions::default()
+    };
+    let svg = render_svg(&scene, &opts);
+    let doc = roxmltree::Document::parse(&svg).expect("svg parses");
+    let lines: Vec<(f64, f64, String)> = doc
+        .descendants()
+        .filter(|n| n.attribute("class") == Some("title"))
+        .map(|n| {
+            let num = |a: &str| n.attribute(a).and_then(|v| v.parse().ok()).expect(a);
+            (
+                num("x"),
+                num("textLength"),
+                n.text().unwrap_or("").to_owned(),
+            )
+        })
+        .collect();
+    assert_eq!(lines.len(), 2, "{lines:?}");
+    for (x, len, _) in &lines {
+        assert!(x + len <= 600.0, "{lines:?}");
+    }
+    assert_eq!(format!("{} {}", lines[0].2, lines[1].2), words);
+    // The plot starts below both lines.
+    let plot_top = doc
+        .descendants()
+        .find(|n| n.has_tag_name("clipPath"))
+        .and_then(|c| c.first_element_child())
+        .and_then(|r| r.attribute("y")?.parse::<f64>().ok())
+        .expect("the plot's clip rectangle");
+    let second: f64 = doc
+        .descendants()
+        .filter(|n| n.attribute("class") == Some("title"))
+        .nth(1)
+        .and_then(|n| n.attribute("y")?.parse().ok())
+        .expect("y");
+    assert!(plot_top > second, "{plot_top} vs {second}");
+    // Past two lines, what did not fit is marked.
+    scene.title = format!("{words}, {words}");
+    let svg = render_svg(&scene, &opts);
+    let doc = roxmltree::Document::parse(&svg).expect("svg parses");
+    let texts: Vec<String> = doc
+        .descendants()
+        .filter(|n| n.attribute("class") == Some("title"))
+        .filter_map(|n| n.text().map(str::to_owned))
+        .collect();
+    assert_eq!(texts.len(), 2);
+    assert!(texts[1].ends_with('…'), "{texts:?}");
+    // A short title stays on one line and whole.
+    assert!(render_svg(&lv_scene(), &opts).contains(">Lotka–Volterra predator–prey</text>"));
+}
+
+#[test]
 fn phase_portrait_text_keeps_to_its_boxes_in_any_font() {
     for scene in [lv_scene(), kitchen_sink()] {
         for (width, height) in [(900, 650), (600, 450), (1800, 1300)] {
