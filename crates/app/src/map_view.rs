@@ -13,7 +13,7 @@ use crate::command::Command;
 use crate::job::Job;
 use crate::scenario::Scenario;
 use crate::style;
-use crate::sweep_view::{Stability, stability};
+use crate::sweep_view::Stability;
 
 /// Cells per side of a new map.
 pub const DEFAULT_CELLS: usize = 40;
@@ -72,7 +72,7 @@ pub fn regime(classes: &[Class]) -> Regime {
     }
     let stable = classes
         .iter()
-        .filter(|c| stability(**c) == Stability::Stable)
+        .filter(|c| c.stability() == Stability::Stable)
         .count();
     match stable {
         0 if classes.contains(&Class::Center) => Regime::Neutral,

@@ -5,7 +5,6 @@
 
 use egui::{Button, DragValue, RichText, Ui};
 use egui_plot::{Corner, Legend, Line, LineStyle, MarkerShape, Plot, Points, VLine};
-use quarry_core::linear::Class;
 use quarry_core::model::Model;
 use quarry_core::sweep::{BifurcationKind, BranchEnd, Sweep, SweepError, SweepOptions, sweep};
 
@@ -19,28 +18,7 @@ pub const DEFAULT_STEPS: usize = 200;
 /// Limit cycles sampled past each Hopf point for the amplitude curves.
 pub const CYCLE_SAMPLES: usize = 16;
 
-/// How an equilibrium behaves, for the line style of its branch.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum Stability {
-    /// Every eigenvalue has a negative real part.
-    Stable,
-    /// Some eigenvalue has a positive real part (saddles included).
-    Unstable,
-    /// A linear centre or a zero eigenvalue: the linearisation does not decide.
-    Neutral,
-}
-
-/// The stability of an equilibrium from its class.
-pub fn stability(class: Class) -> Stability {
-    match class {
-        Class::StableNode
-        | Class::StableSpiral
-        | Class::StableDegenerateNode
-        | Class::StableStar => Stability::Stable,
-        Class::Center | Class::ZeroEigenvalue => Stability::Neutral,
-        _ => Stability::Unstable,
-    }
-}
+pub use quarry_core::linear::Stability;
 
 /// The parameter values of the last points inside the window of branches that leave it,
 /// sorted.
@@ -78,7 +56,7 @@ pub fn runs(sweep: &Sweep, variable: usize) -> Vec<Run> {
     for b in &sweep.branches {
         let mut current: Option<Run> = None;
         for p in &b.points {
-            let s = stability(p.linear.class);
+            let s = p.linear.class.stability();
             let pt = [p.value, if variable == 0 { p.x } else { p.y }];
             match &mut current {
                 Some(run) if run.stability == s => run.points.push(pt),

@@ -53,7 +53,34 @@ pub enum Class {
     ZeroEigenvalue,
 }
 
+/// How an equilibrium behaves by its linearisation, for drawing branches.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Stability {
+    /// Every eigenvalue has a negative real part.
+    Stable,
+    /// Some eigenvalue has a positive real part (saddles included).
+    Unstable,
+    /// A linear centre or a zero eigenvalue: the linearisation does not decide.
+    Neutral,
+}
+
 impl Class {
+    /// Stable, unstable, or undecided by the linearisation.
+    pub fn stability(self) -> Stability {
+        match self {
+            Class::StableNode
+            | Class::StableSpiral
+            | Class::StableDegenerateNode
+            | Class::StableStar => Stability::Stable,
+            Class::Center | Class::ZeroEigenvalue => Stability::Neutral,
+            Class::Saddle
+            | Class::UnstableNode
+            | Class::UnstableSpiral
+            | Class::UnstableDegenerateNode
+            | Class::UnstableStar => Stability::Unstable,
+        }
+    }
+
     /// The snake_case name used in JSON output.
     pub fn as_str(self) -> &'static str {
         match self {

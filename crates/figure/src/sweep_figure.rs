@@ -2,10 +2,11 @@
 //! stable (solid) and unstable (dashed), the located bifurcations marked and named, and the
 //! extremes of the limit cycles past each Hopf point as their own curves.
 
-use quarry_core::linear::Class;
+use quarry_core::linear::Stability;
 use quarry_core::sweep::{BifurcationKind, Sweep};
 
 use crate::chart::{Axis, CURVE, CYCLE_RANGE, Chart, ChartSpec, Marker, Swatch, padded};
+use crate::style;
 use crate::text::{name_or, short_number};
 use crate::{FigureError, raster};
 
@@ -45,15 +46,18 @@ impl Default for SweepFigure {
     }
 }
 
-fn is_stable(c: Class) -> bool {
-    matches!(
-        c,
-        Class::StableNode | Class::StableSpiral | Class::StableDegenerateNode | Class::StableStar
-    )
-}
-
 const STABLE: Swatch = Swatch::Line(CURVE, 2.4, None);
 const UNSTABLE: Swatch = Swatch::Line(CURVE, 1.6, Some((7.0, 5.0)));
+const NEUTRAL: Swatch = Swatch::Line(style::INK_SOFT, 1.8, Some((1.5, 3.5)));
+
+/// The line of a branch piece with this stability.
+fn branch_style(s: Stability) -> &'static Swatch {
+    match s {
+        Stability::Stable => &STABLE,
+        Stability::Unstable => &UNSTABLE,
+        Stability::Neutral => &NEUTRAL,
+    }
+}
 const CYCLE_ATTRACTING: Swatch = Swatch::Line(CYCLE_RANGE, 1.8, None);
 const CYCLE_REPELLING: Swatch = Swatch::Line(CYCLE_RANGE, 1.8, Some((0.1, 4.5)));
 
@@ -108,23 +112,26 @@ pub fn render_sweep_svg(sweep: &Sweep, opts: &SweepFigure) -> String {
         (0.0, 1.0)
     };
 
-    let any_stable = sweep
-        .branches
-        .iter()
-        .flat_map(|b| &b.points)
-        .any(|p| is_stable(p.linear.class));
-    let any_unstable = sweep
-        .branches
-        .iter()
-        .flat_map(|b| &b.points)
-        .any(|p| !is_stable(p.linear.class));
+    let present = |s: Stability| {
+        sweep
+            .branches
+            .iter()
+            .flat_map(|b| &b.points)
+            .any(|p| p.linear.class.stability() == s)
+    };
     let mut legend = Vec::new();
     if opts.show_legend {
-        if any_stable {
-            legend.push((STABLE, "stable equilibria".to_owned()));
-        }
-        if any_unstable {
-            legend.push((UNSTABLE, "unstable equilibria".to_owned()));
+        for (s, name) in [
+            (Stability::Stable, "stable equilibria"),
+            (Stability::Unstable, "unstable equilibria"),
+            (
+                Stability::Neutral,
+                "linear centres (undecided by the linearisation)",
+            ),
+        ] {
+            if present(s) {
+                legend.push((branch_style(s).clone(), name.to_owned()));
+            }
         }
         if sweep.cycles.iter().any(|c| c.stable) {
             legend.push((CYCLE_ATTRACTING, "attracting cycle, min and max".to_owned()));
@@ -180,28 +187,18 @@ pub fn render_sweep_svg(sweep: &Sweep, opts: &SweepFigure) -> String {
         let mut run: Vec<[f64; 2]> = Vec::new();
         let mut stable = None;
         for p in &b.points {
-            let s = is_stable(p.linear.class);
+            let s = p.linear.class.stability();
             let q = [p.value, pick(p.x, p.y)];
-            if stable.is_some_and(|t| t != s) {
-                run.push(q);
-                let style = if stable == Some(true) {
-                    &STABLE
-                } else {
-                    &UNSTABLE
-                };
-                chart.line(&mut out, "branch", &run, style);
+            run.push(q);
+            if let Some(t) = stable.filter(|t| *t != s) {
+                chart.line(&mut out, "branch", &run, branch_style(t));
                 run = vec![q];
-            } else {
-                run.push(q);
             }
             stable = Some(s);
         }
-        let style = if stable == Some(true) {
-            &STABLE
-        } else {
-            &UNSTABLE
-        };
-        chart.line(&mut out, "branch", &run, style);
+        if let Some(t) = stable {
+            chart.line(&mut out, "branch", &run, branch_style(t));
+        }
     }
 
     // Cycle extremes, one pair of curves per Hopf point and stability, from the Hopf point.
@@ -314,6 +311,34 @@ mod tests {
         assert!(svg.contains("stroke-dasharray"));
         // Title, axis names, legend entries and the Hopf label keep their measured length.
         assert!(assert_text_is_fitted(&svg) >= 6);
+    }
+
+    #[test]
+    fn a_family_of_linear_centres_is_drawn_as_such_without_hopf_points() {
+        // Volterra's principle (common practice): Lotka–Volterra fished at E on both species
+        // keeps a linear centre for every E < a; the branch is neither stable nor unstable.
+        let mut spec = library::builtin("lotka-volterra").expect("built in").spec();
+        spec.rates = [
+            format!("({}) - E*x", spec.rates[0]),
+            format!("({}) - E*y", spec.rates[1]),
+        ];
+        spec.invariant = None;
+        spec.parameters
+            .push(quarry_core::model::Parameter::new("E", 0.0));
+        let m = Model::new(&spec).expect("model");
+        let a = spec.parameters[0].value;
+        let s = sweep(
+            &m,
+            &SweepOptions::new("E", 0.0, 0.9 * a, 40),
+            &|| false,
+            &|_| {},
+        )
+        .expect("sweep");
+        let svg = render_sweep_svg(&s, &SweepFigure::default());
+        let texts = doc_texts(&roxmltree::Document::parse(&svg).expect("SVG"));
+        let centres = "linear centres (undecided by the linearisation)";
+        assert!(texts.iter().any(|t| t == centres), "{texts:?}");
+        assert!(!texts.iter().any(|t| t.contains("Hopf")), "{texts:?}");
     }
 
     #[test]
