@@ -435,9 +435,13 @@ impl QuarryApp {
             if self.panels.time_series {
                 Panel::bottom("time-series")
                     .resizable(true)
-                    .default_size(220.0)
-                    .min_size(150.0)
+                    .default_size(170.0)
+                    .min_size(120.0)
                     .show(ui, |ui| {
+                        // NOTE: a panel takes the size of what it drew last frame; before
+                        // the first scene the content is one line, so fill the panel or it
+                        // would shrink to its minimum for good.
+                        ui.set_min_height(ui.available_height());
                         ui.add_space(4.0);
                         self.timeseries.ui(
                             ui,
