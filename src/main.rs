@@ -104,7 +104,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
             };
             quarry_app::run(scenario, cli.file.clone()).map_err(|e| {
                 Failure::Io(format!(
-                    "{e}. The headless subcommands (analyze, orbit, render, check) need no display: see `quarry --help`."
+                    "{e}. The subcommands (analyze, orbit, render, sweep, yield, report, check, fmt) need no display: see `quarry --help`."
                 ))
             })
         }
