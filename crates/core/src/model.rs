@@ -62,6 +62,13 @@ impl Default for Window {
     }
 }
 
+/// Largest magnitude of a window edge: beyond it grids, tolerances and plots lose meaning.
+pub const MAX_WINDOW_EDGE: f64 = 1e15;
+
+/// Smallest extent of a window axis relative to its edges' magnitude (a few million
+/// distinguishable f64 values across it).
+pub const MIN_WINDOW_EXTENT: f64 = 1e-9;
+
 impl Window {
     /// A window from its edges; rejects non-finite edges and empty extents.
     pub fn new(x_min: f64, x_max: f64, y_min: f64, y_max: f64) -> Result<Self, ModelError> {
@@ -75,7 +82,8 @@ impl Window {
         Ok(w)
     }
 
-    /// Checks that all edges are finite and each extent is positive.
+    /// Checks that all edges are finite and within ±[`MAX_WINDOW_EDGE`], and that each extent
+    /// is positive and not below [`MIN_WINDOW_EXTENT`] of its edges' magnitude.
     pub fn validate(&self) -> Result<(), ModelError> {
         let edges = [self.x_min, self.x_max, self.y_min, self.y_max];
         if edges.iter().any(|v| !v.is_finite()) {
@@ -94,6 +102,18 @@ impl Window {
                 "y_min ({}) must be less than y_max ({})",
                 self.y_min, self.y_max
             )));
+        }
+        if edges.iter().any(|v| v.abs() > MAX_WINDOW_EDGE) {
+            return Err(ModelError::BadWindow(format!(
+                "every edge must lie within ±{MAX_WINDOW_EDGE:e} (rescale the variables' units)"
+            )));
+        }
+        for (name, lo, hi) in [("x", self.x_min, self.x_max), ("y", self.y_min, self.y_max)] {
+            if hi - lo < MIN_WINDOW_EXTENT * lo.abs().max(hi.abs()) {
+                return Err(ModelError::BadWindow(format!(
+                    "the {name} extent {lo} to {hi} is too narrow for its offset to compute in"
+                )));
+            }
         }
         Ok(())
     }

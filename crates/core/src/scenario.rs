@@ -576,6 +576,33 @@ mod tests {
     }
 
     #[test]
+    fn windows_too_large_or_too_narrow_to_compute_in_are_refused() {
+        let base = Scenario::from_spec(&crate::library::default_model());
+        let text = base.to_ron();
+        let with = |x_min: &str, x_max: &str| {
+            let w = &base.window;
+            text.replace(
+                &format!("x_min: {:?},", w.x_min),
+                &format!("x_min: {x_min},"),
+            )
+            .replace(
+                &format!("x_max: {:?},", w.x_max),
+                &format!("x_max: {x_max},"),
+            )
+        };
+        assert!(Scenario::from_ron(&with("0.0", "1e15")).is_ok());
+        for (lo, hi, says) in [
+            ("-1e300", "1e300", "within"),
+            ("1e10", "10000000000.0001", "too narrow"),
+        ] {
+            let t = with(lo, hi);
+            assert_ne!(t, text, "the window was replaced");
+            let e = Scenario::from_ron(&t).expect_err("refused").to_string();
+            assert!(e.contains("window") && e.contains(says), "{e}");
+        }
+    }
+
+    #[test]
     fn a_harvest_round_trips_through_the_file() {
         let s = harvested();
         let text = s.to_ron();
