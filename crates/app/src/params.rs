@@ -78,7 +78,8 @@ impl ParamsPanel {
                         DragValue::new(&mut typed)
                             .speed((hi - lo) / DRAG_STEPS)
                             .max_decimals(6)
-                            .min_decimals(2),
+                            .min_decimals(2)
+                            .custom_formatter(style::field_text),
                     );
                     style::accessible_name(ui, &field, format!("{} value", p.name));
                     if field.changed() && typed.is_finite() && typed != p.value {
@@ -124,9 +125,19 @@ impl ParamsPanel {
                     ui.label(RichText::new(&p.name).monospace());
                     let (mut lo, mut hi) = setting.slider_range();
                     let speed = ((hi - lo) / DRAG_STEPS).max(1e-9);
-                    let a = ui.add(DragValue::new(&mut lo).speed(speed).prefix("from "));
+                    let a = ui.add(
+                        DragValue::new(&mut lo)
+                            .speed(speed)
+                            .prefix("from ")
+                            .custom_formatter(style::field_text),
+                    );
                     style::accessible_name(ui, &a, format!("{} slider from", p.name));
-                    let b = ui.add(DragValue::new(&mut hi).speed(speed).prefix("to "));
+                    let b = ui.add(
+                        DragValue::new(&mut hi)
+                            .speed(speed)
+                            .prefix("to ")
+                            .custom_formatter(style::field_text),
+                    );
                     style::accessible_name(ui, &b, format!("{} slider to", p.name));
                     if (a.changed() || b.changed()) && lo.is_finite() && hi.is_finite() && lo < hi {
                         out.push(Command::SetParamRange {

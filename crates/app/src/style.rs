@@ -179,6 +179,18 @@ pub fn num(v: f64) -> String {
     s.replacen('-', "−", 1)
 }
 
+/// The text of a numeric field: fixed decimals for ordinary magnitudes, exponent form (which
+/// the field parses back) for very large or small ones, so a field never grows to hundreds of
+/// digits.
+pub fn field_text(v: f64, decimals: std::ops::RangeInclusive<usize>) -> String {
+    let a = v.abs();
+    if a != 0.0 && a.is_finite() && !(1e-4..1e9).contains(&a) {
+        format!("{v:e}")
+    } else {
+        egui::emath::format_with_decimals_in_range(v, decimals)
+    }
+}
+
 /// Gives a widget the name screen readers (and UI tests) know it by, for widgets whose
 /// visible label is elsewhere or absent.
 pub fn accessible_name(ui: &Ui, response: &egui::Response, name: impl Into<String>) {
@@ -190,6 +202,17 @@ pub fn accessible_name(ui: &Ui, response: &egui::Response, name: impl Into<Strin
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn huge_and_tiny_field_values_read_in_exponent_form_and_parse_back() {
+        for v in [1e200, -3.5e12, 2.5e-7] {
+            let t = field_text(v, 2..=6);
+            assert!(t.len() < 12, "{t}");
+            assert_eq!(t.parse::<f64>(), Ok(v), "{t}");
+        }
+        assert_eq!(field_text(1.5, 2..=6), "1.50");
+        assert_eq!(field_text(0.0, 2..=6), "0.00");
+    }
 
     #[test]
     fn numbers_keep_four_significant_digits() {
