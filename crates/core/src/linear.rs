@@ -151,13 +151,15 @@ impl Linearisation {
         if !(s.is_finite() && s > 0.0) {
             return *self;
         }
-        let snap = |v: f64, scale: f64| if v.abs() <= CLASS_EPS * scale { 0.0 } else { v };
-        let z = |c: Complex| Complex::new(snap(c.re, s), snap(c.im, s));
+        // NOTE: divided rather than multiplied, so a huge or tiny scale cannot overflow.
+        let snap = |v: f64| if v.abs() / s <= CLASS_EPS { 0.0 } else { v };
+        let snap2 = |v: f64| if v.abs() / s / s <= CLASS_EPS { 0.0 } else { v };
+        let z = |c: Complex| Complex::new(snap(c.re), snap(c.im));
         Linearisation {
-            jacobian: self.jacobian.map(|row| row.map(|v| snap(v, s))),
-            trace: snap(self.trace, s),
-            det: snap(self.det, s * s),
-            discriminant: snap(self.discriminant, s * s),
+            jacobian: self.jacobian.map(|row| row.map(snap)),
+            trace: snap(self.trace),
+            det: snap2(self.det),
+            discriminant: snap2(self.discriminant),
             eigenvalues: self.eigenvalues.map(z),
             eigenvectors: self.eigenvectors,
             class: self.class,
@@ -166,7 +168,35 @@ impl Linearisation {
 }
 
 /// Linearises with a given Jacobian.
+///
+/// Entries beyond about 2^±250 are first scaled by a power of two (exactly) so that the
+/// determinant, the discriminant and the relative tolerances neither overflow nor underflow;
+/// the trace, determinant and eigenvalues are scaled back (to ±∞ if the true value is beyond
+/// f64), and the class is that of the scaled matrix, which is the same.
 pub fn linearise(jacobian: [[f64; 2]; 2]) -> Linearisation {
+    let s = jacobian
+        .iter()
+        .flatten()
+        .fold(0.0_f64, |m, v| m.max(v.abs()));
+    if !(s.is_finite() && s > 0.0) {
+        return linearise_in_range(jacobian);
+    }
+    let k = (s.log2().floor() as i32).clamp(-1000, 1000);
+    if k.abs() <= 250 {
+        return linearise_in_range(jacobian);
+    }
+    let (down, up) = (2.0_f64.powi(-k), 2.0_f64.powi(k));
+    let mut l = linearise_in_range(jacobian.map(|row| row.map(|v| v * down)));
+    l.jacobian = jacobian;
+    l.trace *= up;
+    l.det = l.det * up * up;
+    l.discriminant = l.discriminant * up * up;
+    l.eigenvalues = l.eigenvalues.map(|z| Complex::new(z.re * up, z.im * up));
+    l
+}
+
+/// [`linearise`] for entries whose products stay within f64.
+fn linearise_in_range(jacobian: [[f64; 2]; 2]) -> Linearisation {
     let [[a, b], [c, d]] = jacobian;
     let trace = a + d;
     let det = a * d - b * c;
@@ -311,6 +341,34 @@ fn real_eigenvector(a: f64, b: f64, c: f64, d: f64, l: f64, fallback: [f64; 2]) 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn huge_and_tiny_jacobians_classify_as_their_scaled_copies() {
+        // The class is invariant under J → kJ for k > 0 (trace–determinant test, common
+        // practice); the eigenvalues scale with k.
+        for j in [
+            [[1.0, 0.0], [0.0, -0.2]],
+            [[-0.04, -0.4], [0.32, 0.0]],
+            [[0.0, -2.0], [0.75, 0.0]],
+            [[-1.0, 0.5], [0.2, -3.0]],
+        ] {
+            let base = linearise(j);
+            for k in [1e200, 1e-200, 1e300] {
+                let l = linearise(j.map(|r| r.map(|v| v * k)));
+                assert_eq!(l.class, base.class, "{j:?} × {k}");
+                for (a, b) in l.eigenvalues.iter().zip(&base.eigenvalues) {
+                    assert!((a.re - b.re * k).abs() <= 1e-12 * k, "{j:?} × {k}");
+                    assert!((a.im - b.im * k).abs() <= 1e-12 * k, "{j:?} × {k}");
+                }
+                // Shown without snapping real numbers away.
+                let d = l.for_display();
+                assert_eq!(d.eigenvalues, l.eigenvalues, "{j:?} × {k}");
+            }
+        }
+        // In range, nothing changes: the plain computation is used.
+        let j = [[0.3, -1.7], [2.2, 0.1]];
+        assert_eq!(linearise(j), linearise_in_range(j));
+    }
 
     #[test]
     fn rounding_noise_is_shown_as_zero_and_real_numbers_are_kept() {
