@@ -274,7 +274,7 @@ impl MapView {
             3.0
         };
         let response = Plot::new("stability-map")
-            .x_axis_label(map.params[1].as_str())
+            .custom_x_axes(style::x_axis(map.params[1].as_str()))
             .y_axis_label(map.params[0].as_str())
             .height((ui.available_height() - 10.0).max(180.0))
             .show_crosshair(false)

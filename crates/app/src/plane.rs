@@ -207,7 +207,7 @@ impl PlanePanel {
         let w = scenario.spec.window;
         let [xn, yn] = &scenario.spec.variables;
         let mut plot = Plot::new("plane")
-            .x_axis_label(xn.as_str())
+            .custom_x_axes(style::x_axis(xn.as_str()))
             .y_axis_label(yn.as_str())
             .default_x_bounds(w.x_min, w.x_max)
             .default_y_bounds(w.y_min, w.y_max)

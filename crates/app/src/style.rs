@@ -191,6 +191,16 @@ pub fn field_text(v: f64, decimals: std::ops::RangeInclusive<usize>) -> String {
     }
 }
 
+/// The horizontal axis of a plot, named `label`, with tick labels from 40 px apart (egui_plot
+/// wants 60 px, which leaves a 0..0.9 range on a narrow plot with the single label 0).
+pub fn x_axis(label: impl Into<egui::WidgetText>) -> Vec<egui_plot::AxisHints<'static>> {
+    vec![
+        egui_plot::AxisHints::new_x()
+            .label(label)
+            .label_spacing(40.0..=60.0),
+    ]
+}
+
 /// Gives a widget the name screen readers (and UI tests) know it by, for widgets whose
 /// visible label is elsewhere or absent.
 pub fn accessible_name(ui: &Ui, response: &egui::Response, name: impl Into<String>) {

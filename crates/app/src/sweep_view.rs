@@ -328,7 +328,7 @@ impl SweepView {
         let current = model.param(&sweep.param);
         let var_name = done.variables[self.variable].clone();
         let response = Plot::new("sweep-diagram")
-            .x_axis_label(sweep.param.as_str())
+            .custom_x_axes(style::x_axis(sweep.param.as_str()))
             .y_axis_label(format!("{var_name} at equilibrium"))
             .height((ui.available_height() - 120.0).max(180.0))
             .show_crosshair(false)

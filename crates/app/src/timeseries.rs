@@ -219,7 +219,7 @@ impl TimeSeriesPanel {
             format!("{xn}, {yn}")
         };
         let plot = Plot::new("time-series")
-            .x_axis_label("time")
+            .custom_x_axes(style::x_axis("time"))
             .y_axis_label(y_label)
             .allow_double_click_reset(true)
             .show_crosshair(false)

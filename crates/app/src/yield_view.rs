@@ -264,7 +264,7 @@ impl YieldView {
         let curve = &done.curve;
         let what = curve.rule.as_str();
         let plot = Plot::new("yield-curve")
-            .x_axis_label(format!("{what} on {}", curve.species))
+            .custom_x_axes(style::x_axis(format!("{what} on {}", curve.species)))
             .y_axis_label(format!("sustained catch of {}", curve.species))
             .height((ui.available_height() - 140.0).max(180.0))
             .show_crosshair(false)
