@@ -297,6 +297,11 @@ impl QuarryApp {
         &mut self.sweep
     }
 
+    /// The two-parameter map view (its settings and last map).
+    pub fn map_view(&mut self) -> &mut MapView {
+        &mut self.map
+    }
+
     /// The message of the last file operation or start-up problem.
     pub fn notice(&self) -> Option<&str> {
         self.notice.as_deref()
@@ -929,6 +934,14 @@ impl QuarryApp {
                 quarry_core::scenario::write_atomically(&side, table.as_bytes())
                     .map_err(|e| e.to_string())?;
                 return Ok(quarry_core::export::sweep_csv(vars, sweep, Some(&units)).into_bytes());
+            }
+            ExportKind::MapCsv => {
+                let map = self
+                    .map
+                    .result()
+                    .ok_or("Make a stability map first (Sweep, then Two-parameter map).")?;
+                let units = quarry_core::export::Units::from_scenario(&self.scenario.to_file());
+                return Ok(quarry_core::export::stability_map_csv(map, Some(&units)).into_bytes());
             }
             ExportKind::Report => {
                 let file = self.scenario.to_file();

@@ -26,13 +26,15 @@ pub enum ExportKind {
     EquilibriaCsv,
     /// The last sweep's branches and bifurcation points.
     SweepCsv,
+    /// The last two-parameter stability map, a row per grid cell.
+    MapCsv,
     /// A one-page HTML report of the scenario.
     Report,
 }
 
 impl ExportKind {
     /// Every kind, in menu order.
-    pub const ALL: [ExportKind; 8] = [
+    pub const ALL: [ExportKind; 9] = [
         ExportKind::PlaneFigure,
         ExportKind::TimeSeriesFigure,
         ExportKind::SweepFigure,
@@ -40,6 +42,7 @@ impl ExportKind {
         ExportKind::OrbitsCsv,
         ExportKind::EquilibriaCsv,
         ExportKind::SweepCsv,
+        ExportKind::MapCsv,
         ExportKind::Report,
     ];
 
@@ -53,6 +56,7 @@ impl ExportKind {
             ExportKind::OrbitsCsv => "Orbits as CSV…",
             ExportKind::EquilibriaCsv => "Equilibria as CSV…",
             ExportKind::SweepCsv => "Sweep as CSV…",
+            ExportKind::MapCsv => "Stability map as CSV…",
             ExportKind::Report => "Report (HTML)…",
         }
     }
@@ -86,6 +90,7 @@ impl ExportKind {
             ExportKind::OrbitsCsv => "orbits.csv",
             ExportKind::EquilibriaCsv => "equilibria.csv",
             ExportKind::SweepCsv => "sweep.csv",
+            ExportKind::MapCsv => "stability-map.csv",
             ExportKind::Report => "report.html",
         }
     }

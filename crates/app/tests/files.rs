@@ -320,6 +320,44 @@ fn every_export_writes_a_file_that_reads_back() {
         .collect();
     assert_eq!(&first[2..4], &[file.orbits[0].x, file.orbits[0].y]);
     assert!(dir.join("sweep-bifurcations.csv").exists());
+    // The stability map: first a message, then a row per grid cell with the units.
+    let map_path = dir.join("map.csv");
+    let export_map = |h: &mut egui_kittest::Harness<'static, QuarryApp>| {
+        h.state_mut().apply(Command::Export(ExportRequest {
+            kind: ExportKind::MapCsv,
+            path: map_path.clone(),
+            size: [800, 600],
+        }));
+        h.run();
+    };
+    export_map(&mut h);
+    assert!(!map_path.exists());
+    assert!(
+        h.state()
+            .notice()
+            .is_some_and(|n| n.contains("Make a stability map first"))
+    );
+    h.get_by_label("Two-parameter map").click();
+    h.run();
+    h.get_by_label("Run map").click();
+    h.run();
+    h.run();
+    export_map(&mut h);
+    let map = h.state_mut().map_view().result().expect("a map").clone();
+    let text = std::fs::read_to_string(&map_path).expect("the map was written");
+    let mut lines = text.lines();
+    let header = lines.next().expect("a header");
+    let unit = |name: &str| {
+        file.parameters
+            .iter()
+            .find(|p| p.name == name)
+            .map(|p| p.unit.clone())
+            .expect("a parameter of the file")
+    };
+    let first = format!("{} ({}),", map.params[0], unit(&map.params[0]));
+    assert!(header.starts_with(&first), "{header}");
+    assert!(header.ends_with(",equilibria,stable,classes"), "{header}");
+    assert_eq!(lines.count(), map.cells.len());
 }
 
 /// A file dropped on the window, as the windowing layer hands it over.

@@ -19,11 +19,11 @@
 use crate::analysis::Analysis;
 use crate::compiled::{Backend, Formulas};
 use crate::harvest::{Harvest, HarvestError};
-use crate::linear::Complex;
+use crate::linear::{Complex, Stability};
 use crate::model::{Model, ModelSpec};
 use crate::scenario::Scenario;
 use crate::scene::Scene;
-use crate::sweep::Sweep;
+use crate::sweep::{StabilityMap, Sweep};
 
 /// The line end of every row (RFC 4180).
 pub const LINE_END: &str = "\r\n";
@@ -456,6 +456,42 @@ pub fn bifurcations_csv(variables: [&str; 2], sweep: &Sweep, units: Option<&Unit
     t.finish()
 }
 
+/// A two-parameter stability map as CSV, one row per grid cell: both parameters' values, how
+/// many equilibria were found there, how many of them are stable, and their classes
+/// (separated by `;`, in the map's order: by x, then y).
+pub fn stability_map_csv(map: &StabilityMap, units: Option<&Units>) -> String {
+    let unit = |i: usize| units.map_or("", |u| u.parameter(&map.params[i]));
+    let header = vec![
+        heading(&map.params[0], unit(0)),
+        heading(&map.params[1], unit(1)),
+        "equilibria".to_owned(),
+        "stable".to_owned(),
+        "classes".to_owned(),
+    ];
+    let mut t = Table::new(&header);
+    let columns = map.values[1].len();
+    for (i, a) in map.values[0].iter().enumerate() {
+        for (j, b) in map.values[1].iter().enumerate() {
+            let Some(classes) = map.cells.get(i * columns + j) else {
+                continue;
+            };
+            let stable = classes
+                .iter()
+                .filter(|c| c.stability() == Stability::Stable)
+                .count();
+            let names: Vec<&str> = classes.iter().map(|c| c.as_str()).collect();
+            t.row(&[
+                Cell::Num(*a),
+                Cell::Num(*b),
+                Cell::Int(classes.len()),
+                Cell::Int(stable),
+                Cell::Text(names.join(";")),
+            ]);
+        }
+    }
+    t.finish()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -681,6 +717,47 @@ mod tests {
         let fold = rows.iter().find(|r| r[0] == "fold").expect("a fold");
         assert!((f(&fold[1]) - 2.5).abs() < 1e-9, "fold at rK/4 = 2.5");
         assert!((f(&fold[2]) - 5.0).abs() < 1e-6, "at x = K/2");
+    }
+
+    #[test]
+    fn the_stability_map_table_counts_the_equilibria_of_every_cell() {
+        // Logistic growth with constant quota H has two equilibria, a stable node above K/2
+        // and a saddle below it, for H < rK/4 and none past it (Schaefer 1954; common
+        // practice).
+        let m = model(
+            ["r*x*(1 - x/K) - H", "-y"],
+            &[("r", 1.0), ("K", 10.0), ("H", 1.0)],
+            None,
+            [-1.0, 12.0, -1.0, 1.0],
+        );
+        let map = crate::sweep::stability_map(
+            &m,
+            ("H", 0.5, 4.0, 5),
+            ("r", 1.0, 2.0, 3),
+            &|| false,
+            &|_| {},
+        )
+        .expect("map");
+        let units = Units {
+            parameters: vec![("H".into(), "t/year".into())],
+            ..Units::default()
+        };
+        let (header, rows) = read(&stability_map_csv(&map, Some(&units)));
+        assert_eq!(
+            header,
+            ["H (t/year)", "r", "equilibria", "stable", "classes"]
+        );
+        assert_eq!(rows.len(), 15);
+        for row in &rows {
+            let (h, r) = (f(&row[0]), f(&row[1]));
+            let below = h < r * 10.0 / 4.0;
+            assert_eq!(row[2], if below { "2" } else { "0" }, "{row:?}");
+            assert_eq!(row[3], if below { "1" } else { "0" }, "{row:?}");
+            if below {
+                assert_eq!(row[4], "saddle;stable_node", "{row:?}");
+            }
+        }
+        assert_eq!(f(&rows[0][0]).to_bits(), map.values[0][0].to_bits());
     }
 
     #[test]
