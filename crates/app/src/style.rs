@@ -27,6 +27,8 @@ pub const SEPARATRIX: Color32 = Color32::from_rgb(124, 58, 237);
 pub const LIMIT_CYCLE: Color32 = Color32::from_rgb(17, 24, 39);
 /// The linearised solutions (drawn dotted in their orbit's colour; this is the swatch).
 pub const LINEARISED: Color32 = Color32::from_rgb(100, 116, 139);
+/// The parameter's current value marked on a sweep or yield plot.
+pub const CURRENT_VALUE: Color32 = Color32::from_rgb(147, 51, 234);
 /// Errors shown inline.
 pub const ERROR: Color32 = Color32::from_rgb(200, 30, 30);
 /// Stable equilibria.

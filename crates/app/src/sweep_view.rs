@@ -402,8 +402,9 @@ impl SweepView {
                 if let Some(v) = current {
                     pui.vline(
                         VLine::new(format!("{} now", sweep.param), v)
-                            .color(egui::Color32::from_gray(120))
-                            .width(1.0),
+                            .color(style::CURRENT_VALUE)
+                            .style(LineStyle::Dashed { length: 6.0 })
+                            .width(1.5),
                     );
                 }
                 pui.pointer_coordinate().map(|p| p.x)

@@ -357,8 +357,9 @@ impl YieldView {
             if let Some(v) = now {
                 pui.vline(
                     VLine::new(format!("{what} now"), v)
-                        .color(egui::Color32::from_gray(120))
-                        .width(1.0),
+                        .color(style::CURRENT_VALUE)
+                        .style(LineStyle::Dashed { length: 6.0 })
+                        .width(1.5),
                 );
             }
             pui.pointer_coordinate().map(|p| p.x)
