@@ -29,6 +29,20 @@ fn param(spec: &ModelSpec, name: &str) -> f64 {
         .expect("parameter")
 }
 
+/// Several parameters' values at once, in the order named.
+fn params<const N: usize>(spec: &ModelSpec, names: [&str; N]) -> [f64; N] {
+    names.map(|n| param(spec, n))
+}
+
+/// The orbit from `from` over 40 time units (several cycles of every demo that cycles).
+fn orbit(spec: &ModelSpec, from: [f64; 2]) -> quarry_core::orbit::OrbitReport {
+    let opts = OrbitOptions {
+        t_end: 40.0,
+        ..Default::default()
+    };
+    run_orbit(&model(spec), from, &opts).expect("orbit")
+}
+
 fn with(spec: &ModelSpec, name: &str, value: f64) -> ModelSpec {
     let mut s = spec.clone();
     for p in &mut s.parameters {
@@ -62,12 +76,7 @@ fn rel(a: f64, b: f64) -> f64 {
 #[test]
 fn lake_varrow_cycles_round_a_true_centre_whose_cycle_mean_it_is() {
     let spec = demo("varrow-perch-and-pike.ron");
-    let (a, alpha, c, gamma) = (
-        param(&spec, "a"),
-        param(&spec, "alpha"),
-        param(&spec, "c"),
-        param(&spec, "gamma"),
-    );
+    let [a, alpha, c, gamma] = params(&spec, ["a", "alpha", "c", "gamma"]);
     let m = model(&spec);
     let centre = [c / gamma, a / alpha];
     let eq = analyze(&m).equilibria;
@@ -81,15 +90,7 @@ fn lake_varrow_cycles_round_a_true_centre_whose_cycle_mean_it_is() {
         e.nonlinear.as_ref().map(|v| v.verdict),
         Some(Verdict::Center)
     );
-    let r = run_orbit(
-        &m,
-        [10.0, 5.0],
-        &OrbitOptions {
-            t_end: 40.0,
-            ..Default::default()
-        },
-    )
-    .expect("orbit");
+    let r = orbit(&spec, [10.0, 5.0]);
     assert!(r.closed);
     for k in 0..2 {
         assert!(
@@ -105,32 +106,10 @@ fn lake_varrow_cycles_round_a_true_centre_whose_cycle_mean_it_is() {
 #[test]
 fn lake_varrow_under_fishing_has_more_perch_and_fewer_pike_on_average() {
     let spec = demo("varrow-harvested.ron");
-    let (a, alpha, c, gamma, e) = (
-        param(&spec, "a"),
-        param(&spec, "alpha"),
-        param(&spec, "c"),
-        param(&spec, "gamma"),
-        param(&spec, "E"),
-    );
+    let [a, alpha, c, gamma, e] = params(&spec, ["a", "alpha", "c", "gamma", "E"]);
     assert!(e > 0.0, "the demo fishes");
-    let fished = run_orbit(
-        &model(&spec),
-        [10.0, 5.0],
-        &OrbitOptions {
-            t_end: 40.0,
-            ..Default::default()
-        },
-    )
-    .expect("orbit");
-    let unfished = run_orbit(
-        &model(&with(&spec, "E", 0.0)),
-        [10.0, 5.0],
-        &OrbitOptions {
-            t_end: 40.0,
-            ..Default::default()
-        },
-    )
-    .expect("orbit");
+    let fished = orbit(&spec, [10.0, 5.0]);
+    let unfished = orbit(&with(&spec, "E", 0.0), [10.0, 5.0]);
     assert!(fished.closed && unfished.closed);
     assert!(
         rel(fished.mean[0], (c + e) / gamma) < 1e-6,
@@ -151,12 +130,7 @@ fn lake_varrow_under_fishing_has_more_perch_and_fewer_pike_on_average() {
 #[test]
 fn brenmoor_turns_from_a_stable_spiral_to_a_cycle_past_k_h() {
     let spec = demo("brenmoor-voles-and-owls.ron");
-    let (a, h, b, m_) = (
-        param(&spec, "a"),
-        param(&spec, "h"),
-        param(&spec, "b"),
-        param(&spec, "m"),
-    );
+    let [a, h, b, m_] = params(&spec, ["a", "h", "b", "m"]);
     let x_star = m_ / (a * (b - m_ * h));
     let k_h = 2.0 * x_star + 1.0 / (a * h);
     let k = param(&spec, "K");
@@ -192,7 +166,7 @@ fn brenmoor_turns_from_a_stable_spiral_to_a_cycle_past_k_h() {
 #[test]
 fn skarholm_cod_collapses_at_the_closed_form_quota() {
     let spec = demo("skarholm-cod-quota.ron");
-    let (r, k, s) = (param(&spec, "r"), param(&spec, "K"), param(&spec, "s"));
+    let [r, k, s] = params(&spec, ["r", "K", "s"]);
     let h_fold = r * (k + s) * (k + s) / (4.0 * k);
     assert!(
         param(&spec, "H") < h_fold,
@@ -232,12 +206,7 @@ fn skarholm_cod_collapses_at_the_closed_form_quota() {
 #[test]
 fn dunmere_stock_x_excludes_stock_y() {
     let spec = demo("dunmere-competing-stocks.ron");
-    let (k1, k2, a12, a21) = (
-        param(&spec, "K1"),
-        param(&spec, "K2"),
-        param(&spec, "a12"),
-        param(&spec, "a21"),
-    );
+    let [k1, k2, a12, a21] = params(&spec, ["K1", "K2", "a12", "a21"]);
     assert!(
         a21 * k1 > k2 && a12 * k2 < k1,
         "the demo's numbers are in the exclusion case"
@@ -259,13 +228,7 @@ fn dunmere_stock_x_excludes_stock_y() {
 #[test]
 fn orrin_fen_spirals_in_to_coexistence() {
     let spec = demo("orrin-fen-damped-spiral.ron");
-    let (r, k, alpha, c, gamma) = (
-        param(&spec, "r"),
-        param(&spec, "K"),
-        param(&spec, "alpha"),
-        param(&spec, "c"),
-        param(&spec, "gamma"),
-    );
+    let [r, k, alpha, c, gamma] = params(&spec, ["r", "K", "alpha", "c", "gamma"]);
     let x = c / gamma;
     let y = (r / alpha) * (1.0 - x / k);
     let (trace, det) = (-r * x / k, alpha * gamma * x * y);
