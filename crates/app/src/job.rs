@@ -103,6 +103,21 @@ impl<T: Send + 'static> Job<T> {
     pub fn elapsed(&self) -> Duration {
         self.started.elapsed()
     }
+
+    /// A progress bar with a Cancel button, in one row; `add` puts more in the row.
+    pub fn progress_ui(&self, ui: &mut egui::Ui, add: impl FnOnce(&mut egui::Ui)) {
+        ui.horizontal(|ui| {
+            ui.add(
+                egui::ProgressBar::new(self.progress())
+                    .show_percentage()
+                    .desired_width(260.0),
+            );
+            if ui.button("Cancel").clicked() {
+                self.cancel();
+            }
+            add(ui);
+        });
+    }
 }
 
 impl<T> Drop for Job<T> {

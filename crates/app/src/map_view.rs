@@ -240,16 +240,7 @@ impl MapView {
             }
         });
         if let Some(job) = &self.job {
-            ui.horizontal(|ui| {
-                ui.add(
-                    egui::ProgressBar::new(job.progress())
-                        .show_percentage()
-                        .desired_width(260.0),
-                );
-                if ui.button("Cancel").clicked() {
-                    job.cancel();
-                }
-            });
+            job.progress_ui(ui, |_| {});
         }
         if let Some(e) = &self.error {
             ui.colored_label(style::ERROR, e);

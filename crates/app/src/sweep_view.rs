@@ -283,15 +283,7 @@ impl SweepView {
             }
         });
         if let Some(job) = &self.job {
-            ui.horizontal(|ui| {
-                ui.add(
-                    egui::ProgressBar::new(job.progress())
-                        .show_percentage()
-                        .desired_width(260.0),
-                );
-                if ui.button("Cancel").clicked() {
-                    job.cancel();
-                }
+            job.progress_ui(ui, |ui| {
                 ui.weak("The plane stays live while the sweep runs.");
             });
         }
