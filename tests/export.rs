@@ -147,18 +147,22 @@ fn orbit_csv_file_reads_back_and_matches_the_measurements() {
 fn a_harvested_orbit_csv_has_the_catch_column_and_the_output_the_caution() {
     let dir = temp_dir("harvest");
     let csv_path = dir.join("harvested.csv");
-    let out = quarry(&[
-        "orbit",
-        "lotka-volterra",
-        "--harvest",
-        "x:proportional:E=0.2,q=0.5",
-        "--from",
-        "10,5",
-        "--t-end",
-        "4",
-        "--csv",
-        s(&csv_path),
-    ]);
+    let harvested_orbit = |csv: &[&str]| {
+        let mut args = vec![
+            "orbit",
+            "lotka-volterra",
+            "--harvest",
+            "x:proportional:E=0.2,q=0.5",
+            "--from",
+            "10,5",
+            "--t-end",
+            "4",
+            "--csv",
+        ];
+        args.extend_from_slice(csv);
+        quarry(&args)
+    };
+    let out = harvested_orbit(&[s(&csv_path)]);
     assert!(out.status.success(), "{}", stderr(&out));
     let text = String::from_utf8_lossy(&out.stdout);
     assert!(text.contains("not a stock assessment"), "{text}");
@@ -173,17 +177,7 @@ fn a_harvested_orbit_csv_has_the_catch_column_and_the_output_the_caution() {
         assert!((f(&r[3]) - 0.5 * 0.2 * x).abs() <= 1e-15 * x.max(1.0));
     }
     // The same table to stdout keeps stdout pure CSV and puts the caution on stderr.
-    let out = quarry(&[
-        "orbit",
-        "lotka-volterra",
-        "--harvest",
-        "x:proportional:E=0.2,q=0.5",
-        "--from",
-        "10,5",
-        "--t-end",
-        "4",
-        "--csv",
-    ]);
+    let out = harvested_orbit(&[]);
     assert!(out.status.success());
     let text = String::from_utf8_lossy(&out.stdout);
     assert!(text.starts_with("t,x,y,catch of x\r\n"));
