@@ -5,7 +5,7 @@ use std::path::PathBuf;
 use clap::Args;
 use quarry_core::export::{self, CatchRates};
 use quarry_core::harvest;
-use quarry_core::orbit::{self, OrbitOptions, OrbitReport};
+use quarry_core::orbit::{self, OrbitOptions, OrbitReport, shown_near_zero};
 use serde_json::json;
 
 use crate::Failure;
@@ -153,7 +153,8 @@ pub fn run(args: &OrbitArgs) -> Result<(), Failure> {
         }
         json_text(&v)
     } else {
-        let mut t = table(&report, xn, yn);
+        let w = model.spec().window;
+        let mut t = table(&report, [w.width(), w.height()], xn, yn);
         if let Some(y) = &yields {
             t.push_str(&format!(
                 "mean catch per unit time: {xn} {}, {yn} {}; mean profit {}\n{}\n",
@@ -192,7 +193,7 @@ pub fn to_json(r: &OrbitReport) -> serde_json::Value {
     })
 }
 
-fn table(r: &OrbitReport, xn: &str, yn: &str) -> String {
+fn table(r: &OrbitReport, extent: [f64; 2], xn: &str, yn: &str) -> String {
     let opt = |v: Option<f64>| v.map_or_else(|| "—".to_owned(), fmt);
     let mut s = String::new();
     s.push_str(&format!(
@@ -212,11 +213,12 @@ fn table(r: &OrbitReport, xn: &str, yn: &str) -> String {
         ("max", r.max),
         ("mean", r.mean),
     ] {
+        let shown = |k: usize| fmt(shown_near_zero(v[k], extent[k]));
         s.push_str(&format!(
             "{:<10} {:>14} {:>14}\n",
             label,
-            fmt(v[0]),
-            fmt(v[1])
+            shown(0),
+            shown(1)
         ));
     }
     s.push_str(&format!(

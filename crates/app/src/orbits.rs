@@ -22,19 +22,11 @@ pub fn direction_text(d: TimeDirection) -> &'static str {
     }
 }
 
-/// One line of measurements for an orbit. `extent` is the window's size along each axis: a
-/// minimum that dips below zero by less than 1e-7 of it is the integrator's rounding next to
-/// an invariant axis (a stock that reaches zero stays there) and reads as 0.
+/// One line of measurements for an orbit. `extent` is the window's size along each axis, for
+/// [`quarry_core::orbit::shown_near_zero`].
 pub fn summary_text(vars: &[String; 2], orbit: &SceneOrbit, extent: [f64; 2]) -> String {
     let s = &orbit.summary;
-    let low = |k: usize| {
-        let v = s.min[k];
-        if v < 0.0 && -v <= 1e-7 * extent[k] {
-            0.0
-        } else {
-            v
-        }
-    };
+    let low = |k: usize| quarry_core::orbit::shown_near_zero(s.min[k], extent[k]);
     let [x, y] = vars;
     if s.closed
         && let Some(period) = s.period

@@ -144,6 +144,17 @@ impl integrate::System<4> for WithQuadrature<'_> {
     }
 }
 
+/// A value for a table people read: one below zero by less than 1e-7 of `extent` (the
+/// window's size along that axis) is the integrator's rounding next to an invariant axis (a
+/// stock that reaches zero stays there) and reads as 0. JSON and CSV keep computed values.
+pub fn shown_near_zero(v: f64, extent: f64) -> f64 {
+    if v < 0.0 && -v <= 1e-7 * extent {
+        0.0
+    } else {
+        v
+    }
+}
+
 /// Integrates one orbit from `start` and measures it.
 pub fn run_orbit(
     model: &Model,
@@ -347,4 +358,17 @@ pub fn radial_return(
             g.signum() == g0.signum()
         })
         .map(|h| (h.y[0] - start[0]) / r)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn only_rounding_below_zero_reads_as_zero() {
+        assert_eq!(shown_near_zero(-2.5e-8, 220.0), 0.0);
+        assert_eq!(shown_near_zero(-0.5, 220.0), -0.5);
+        assert_eq!(shown_near_zero(1e-9, 220.0), 1e-9);
+        assert_eq!(shown_near_zero(-2.5e-8, 0.01), -2.5e-8);
+    }
 }

@@ -811,6 +811,7 @@ pub fn report_html(input: &ReportInput) -> String {
             e(&v0.name),
             e(&v1.name)
         );
+        let low = quarry_core::orbit::shown_near_zero;
         for (i, o) in input.orbits.iter().enumerate() {
             let _ = writeln!(
                 h,
@@ -821,9 +822,9 @@ pub fn report_html(input: &ReportInput) -> String {
                 o.period.map_or_else(|| "does not close".to_owned(), num),
                 num(o.mean[0]),
                 num(o.mean[1]),
-                num(o.min[0]),
+                num(low(o.min[0], input.window.width())),
                 num(o.max[0]),
-                num(o.min[1]),
+                num(low(o.min[1], input.window.height())),
                 num(o.max[1])
             );
         }
